@@ -1,0 +1,185 @@
+//! Reading and validating radial-velocity tables.
+//!
+//! Entry point: [`load`] turns a list of [`DataSpec`] (file, instrument, unit, time
+//! standard) into one [`RvSet`], sorted by time, RVs in m/s, times in days from a common
+//! reference epoch.
+
+use std::path::PathBuf;
+
+mod time;
+pub use time::{TimeScale, TimeStandard, TimeStandardError};
+
+/// Unit of the RV and RV-error columns of an input file.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+pub enum RvUnit {
+    /// Metres per second (the internal unit).
+    #[default]
+    #[serde(rename = "m/s")]
+    MetresPerSecond,
+    /// Kilometres per second.
+    #[serde(rename = "km/s")]
+    KilometresPerSecond,
+}
+
+impl RvUnit {
+    /// Factor that converts a value in this unit to m/s.
+    pub fn to_mps(self) -> f64 {
+        match self {
+            RvUnit::MetresPerSecond => 1.0,
+            RvUnit::KilometresPerSecond => 1000.0,
+        }
+    }
+}
+
+/// One input file and how to read it.
+#[derive(Clone, Debug, PartialEq)]
+pub struct DataSpec {
+    /// Path of the table (CSV, TSV, whitespace-separated text or Parquet).
+    pub path: PathBuf,
+    /// Instrument name for every row; `None` means: from the file's `instrument` column if
+    /// it has one, else the file's stem.
+    pub instrument: Option<String>,
+    /// Unit of the `rv` and `rv_err` columns.
+    pub unit: RvUnit,
+    /// Time standard of the `time` column.
+    pub time: TimeStandard,
+}
+
+/// Where a measurement came from: index into [`RvSet::files`] and the 1-based line number
+/// in that file (header counted), or the 1-based row for Parquet.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
+pub struct Origin {
+    /// Index into [`RvSet::files`].
+    pub file: usize,
+    /// 1-based line (text) or row (Parquet) number.
+    pub row: usize,
+}
+
+/// An extra numeric column carried per point (activity indicator), NaN where a file lacks it.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Indicator {
+    /// Column name as in the header.
+    pub name: String,
+    /// One value per point of the [`RvSet`], NaN where missing.
+    pub values: Vec<f64>,
+}
+
+/// Validated RV time series from one or more instruments, sorted by time.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RvSet {
+    /// Reference epoch (full BJD_TDB, days) that [`RvSet::time_d`] counts from.
+    pub epoch_bjd: f64,
+    /// Times in days relative to [`RvSet::epoch_bjd`].
+    pub time_d: Vec<f64>,
+    /// Radial velocities, m/s.
+    pub rv_mps: Vec<f64>,
+    /// RV uncertainties, m/s (> 0).
+    pub err_mps: Vec<f64>,
+    /// Instrument index of each point (into [`RvSet::instruments`]).
+    pub instrument: Vec<usize>,
+    /// Instrument names, in order of first appearance in the input.
+    pub instruments: Vec<String>,
+    /// Origin of each point.
+    pub origin: Vec<Origin>,
+    /// Input files, indexed by [`Origin::file`].
+    pub files: Vec<PathBuf>,
+    /// Activity-indicator columns.
+    pub indicators: Vec<Indicator>,
+    /// Non-fatal findings to show the user (e.g. time-scale caveats).
+    pub warnings: Vec<String>,
+}
+
+impl RvSet {
+    /// Builds a set from columns already in internal units (times in days from
+    /// `epoch_bjd`, RVs in m/s), e.g. for simulations. Points are sorted by time; origins
+    /// refer to one pseudo-file named `source` with rows numbered in input order.
+    ///
+    /// # Panics
+    /// If the columns differ in length or an instrument index is out of range
+    /// (programmer errors: user data goes through [`load`]).
+    pub fn from_columns(
+        source: &str,
+        epoch_bjd: f64,
+        time_d: Vec<f64>,
+        rv_mps: Vec<f64>,
+        err_mps: Vec<f64>,
+        instrument: Vec<usize>,
+        instruments: Vec<String>,
+    ) -> RvSet {
+        let n = time_d.len();
+        assert!(
+            rv_mps.len() == n && err_mps.len() == n && instrument.len() == n,
+            "column lengths differ: time {n}, rv {}, err {}, instrument {}",
+            rv_mps.len(),
+            err_mps.len(),
+            instrument.len()
+        );
+        assert!(
+            instrument.iter().all(|&k| k < instruments.len()),
+            "instrument index out of range (have {} names)",
+            instruments.len()
+        );
+        let set = RvSet {
+            epoch_bjd,
+            time_d,
+            rv_mps,
+            err_mps,
+            instrument,
+            instruments,
+            origin: (0..n).map(|i| Origin { file: 0, row: i + 1 }).collect(),
+            files: vec![PathBuf::from(source)],
+            indicators: Vec::new(),
+            warnings: Vec::new(),
+        };
+        let mut order: Vec<usize> = (0..n).collect();
+        order.sort_by(|&a, &b| set.time_d[a].total_cmp(&set.time_d[b]));
+        set.select(&order)
+    }
+
+    /// Number of points.
+    pub fn len(&self) -> usize {
+        self.time_d.len()
+    }
+
+    /// True when there are no points.
+    pub fn is_empty(&self) -> bool {
+        self.time_d.is_empty()
+    }
+
+    /// Number of instruments.
+    pub fn n_instruments(&self) -> usize {
+        self.instruments.len()
+    }
+
+    /// Time span of the data, days (0 for fewer than two points).
+    pub fn baseline_d(&self) -> f64 {
+        match (self.time_d.first(), self.time_d.last()) {
+            (Some(a), Some(b)) => b - a,
+            _ => 0.0,
+        }
+    }
+
+    /// The points at `indices`, in that order, with all per-point columns kept together.
+    pub fn select(&self, indices: &[usize]) -> RvSet {
+        let pick = |v: &[f64]| indices.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+        RvSet {
+            epoch_bjd: self.epoch_bjd,
+            time_d: pick(&self.time_d),
+            rv_mps: pick(&self.rv_mps),
+            err_mps: pick(&self.err_mps),
+            instrument: indices.iter().map(|&i| self.instrument[i]).collect(),
+            instruments: self.instruments.clone(),
+            origin: indices.iter().map(|&i| self.origin[i]).collect(),
+            files: self.files.clone(),
+            indicators: self
+                .indicators
+                .iter()
+                .map(|ind| Indicator {
+                    name: ind.name.clone(),
+                    values: pick(&ind.values),
+                })
+                .collect(),
+            warnings: self.warnings.clone(),
+        }
+    }
+}

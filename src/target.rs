@@ -1,0 +1,398 @@
+//! The target file (TOML): the star, the RV data files, known transits and analysis
+//! settings, turned into a typed [`Target`] by [`load`]. Unknown keys are errors.
+
+use std::path::{Path, PathBuf};
+
+use serde::Deserialize;
+
+use crate::data::{DataSpec, RvUnit, TimeStandard};
+
+/// Everything a run needs to know about one star.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Target {
+    /// Name of the star/system (free text).
+    pub name: String,
+    /// The target file this came from.
+    pub path: PathBuf,
+    /// Stellar parameters.
+    pub star: Star,
+    /// RV files, paths resolved relative to the target file.
+    pub data: Vec<DataSpec>,
+    /// Known transits, one per transiting planet.
+    pub transits: Vec<Transit>,
+    /// Analysis settings.
+    pub settings: Settings,
+}
+
+/// Stellar parameters with 1σ uncertainties.
+#[derive(Clone, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Star {
+    /// Mass, solar masses.
+    pub mass_msun: f64,
+    /// 1σ uncertainty of the mass, solar masses.
+    #[serde(default)]
+    pub mass_err_msun: f64,
+    /// Radius, nominal solar radii.
+    pub radius_rsun: Option<f64>,
+    /// 1σ uncertainty of the radius, solar radii.
+    #[serde(default)]
+    pub radius_err_rsun: f64,
+    /// Effective temperature, K.
+    pub teff_k: Option<f64>,
+    /// 1σ uncertainty of the effective temperature, K.
+    #[serde(default)]
+    pub teff_err_k: f64,
+    /// Age, Gyr.
+    pub age_gyr: Option<f64>,
+}
+
+/// A planet's transit constraints (times in the declared standard, converted on load).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Transit {
+    /// Label of the planet (e.g. "b").
+    pub label: String,
+    /// Orbital period, days.
+    pub period_d: f64,
+    /// 1σ uncertainty of the period, days.
+    pub period_err_d: f64,
+    /// Conjunction (mid-transit) time, full BJD_TDB.
+    pub tc_bjd: f64,
+    /// 1σ uncertainty of the conjunction time, days.
+    pub tc_err_d: f64,
+    /// Planet-to-star radius ratio and its 1σ uncertainty.
+    pub rp_rs: Option<(f64, f64)>,
+    /// Orbital inclination and its 1σ uncertainty, degrees.
+    pub incl_deg: Option<(f64, f64)>,
+    /// Impact parameter and its 1σ uncertainty (used for the inclination when `a_rs` is
+    /// known and `incl_deg` is not).
+    pub impact: Option<(f64, f64)>,
+    /// Scaled semi-major axis a/R* and its 1σ uncertainty.
+    pub a_rs: Option<(f64, f64)>,
+    /// Total transit duration and its 1σ uncertainty, hours.
+    pub duration_h: Option<(f64, f64)>,
+}
+
+/// Orbit shape fitted to each planet.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default, Deserialize, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum OrbitShape {
+    /// Free eccentricity.
+    #[default]
+    Eccentric,
+    /// e = 0.
+    Circular,
+}
+
+/// Analysis settings with stated defaults.
+#[derive(Clone, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct Settings {
+    /// Seed of every random draw (default 1).
+    pub seed: u64,
+    /// Shortest period searched, days (default 1.0).
+    pub period_min_d: f64,
+    /// Longest period searched, days (default: the time span of the data).
+    pub period_max_d: Option<f64>,
+    /// Periodogram oversampling factor: frequency step = 1/(oversample × span) (default 10).
+    pub oversample: f64,
+    /// Most signals the iterative search may add (default 4).
+    pub max_signals: usize,
+    /// A periodogram peak counts as a signal when its Baluev FAP is below this
+    /// (default 0.001, i.e. 0.1 %, common practice).
+    pub fap_threshold: f64,
+    /// Orbit shape (default eccentric).
+    pub orbit: OrbitShape,
+    /// Polynomial trend order: 0 none, 1 linear, 2 quadratic (default 1).
+    pub trend: usize,
+    /// Monte Carlo draws used to propagate uncertainties into derived quantities
+    /// (default 20 000).
+    pub draws: usize,
+}
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings {
+            seed: 1,
+            period_min_d: 1.0,
+            period_max_d: None,
+            oversample: 10.0,
+            max_signals: 4,
+            fap_threshold: 1e-3,
+            orbit: OrbitShape::Eccentric,
+            trend: 1,
+            draws: 20_000,
+        }
+    }
+}
+
+/// Why a target file could not be used.
+#[derive(Debug, thiserror::Error)]
+pub enum TargetError {
+    /// The file could not be read.
+    #[error("{path}: cannot read: {source}")]
+    Io {
+        /// The target file.
+        path: PathBuf,
+        /// The underlying error.
+        source: std::io::Error,
+    },
+    /// TOML syntax or schema error (unknown keys included).
+    #[error("{path}: {message}")]
+    Parse {
+        /// The target file.
+        path: PathBuf,
+        /// What is wrong, with line and column where known.
+        message: String,
+    },
+    /// A value is out of range or inconsistent.
+    #[error("{path}: {key}: {message}")]
+    Invalid {
+        /// The target file.
+        path: PathBuf,
+        /// The offending key, e.g. `star.mass_msun`.
+        key: String,
+        /// What is wrong.
+        message: String,
+    },
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTarget {
+    name: String,
+    star: Star,
+    data: Vec<RawData>,
+    #[serde(default)]
+    transit: Vec<RawTransit>,
+    #[serde(default)]
+    settings: Settings,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawData {
+    file: PathBuf,
+    instrument: Option<String>,
+    #[serde(default)]
+    unit: RvUnit,
+    time: Option<String>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTransit {
+    label: String,
+    period_d: f64,
+    #[serde(default)]
+    period_err_d: f64,
+    tc: f64,
+    #[serde(default)]
+    tc_err_d: f64,
+    time: Option<String>,
+    rp_rs: Option<f64>,
+    #[serde(default)]
+    rp_rs_err: f64,
+    depth_ppm: Option<f64>,
+    #[serde(default)]
+    depth_err_ppm: f64,
+    incl_deg: Option<f64>,
+    #[serde(default)]
+    incl_err_deg: f64,
+    impact: Option<f64>,
+    #[serde(default)]
+    impact_err: f64,
+    a_rs: Option<f64>,
+    #[serde(default)]
+    a_rs_err: f64,
+    duration_h: Option<f64>,
+    #[serde(default)]
+    duration_err_h: f64,
+}
+
+/// Reads and checks a target file; data paths are resolved relative to its folder.
+///
+/// # Errors
+/// [`TargetError`] naming the file and the key or line at fault.
+pub fn load(path: &Path) -> Result<Target, TargetError> {
+    let text = std::fs::read_to_string(path).map_err(|source| TargetError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    parse(&text, path)
+}
+
+/// Parses target-file text; `path` names the file in errors and anchors relative paths.
+///
+/// # Errors
+/// [`TargetError`] naming the file and the key or line at fault.
+pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
+    let raw: RawTarget = toml::from_str(text).map_err(|e| TargetError::Parse {
+        path: path.to_path_buf(),
+        message: e.to_string().trim_end().replace('\n', " "),
+    })?;
+    let invalid = |key: &str, message: String| TargetError::Invalid {
+        path: path.to_path_buf(),
+        key: key.to_string(),
+        message,
+    };
+    let positive = |key: &str, v: f64| {
+        if v.is_finite() && v > 0.0 {
+            Ok(())
+        } else {
+            Err(invalid(key, format!("must be a positive number, got {v}")))
+        }
+    };
+    let non_negative = |key: &str, v: f64| {
+        if v.is_finite() && v >= 0.0 {
+            Ok(())
+        } else {
+            Err(invalid(key, format!("must be zero or positive, got {v}")))
+        }
+    };
+    let time_standard = |key: &str, s: &Option<String>| -> Result<TimeStandard, TargetError> {
+        match s {
+            None => Ok(TimeStandard::default()),
+            Some(s) => s.parse().map_err(|e: crate::data::TimeStandardError| {
+                invalid(key, e.to_string())
+            }),
+        }
+    };
+
+    let star = raw.star;
+    positive("star.mass_msun", star.mass_msun)?;
+    non_negative("star.mass_err_msun", star.mass_err_msun)?;
+    if let Some(r) = star.radius_rsun {
+        positive("star.radius_rsun", r)?;
+    }
+    non_negative("star.radius_err_rsun", star.radius_err_rsun)?;
+    if let Some(t) = star.teff_k {
+        positive("star.teff_k", t)?;
+    }
+    non_negative("star.teff_err_k", star.teff_err_k)?;
+    if let Some(a) = star.age_gyr {
+        positive("star.age_gyr", a)?;
+    }
+
+    if raw.data.is_empty() {
+        return Err(invalid("data", "at least one [[data]] file is needed".into()));
+    }
+    let base = path.parent().unwrap_or(Path::new("."));
+    let data = raw
+        .data
+        .into_iter()
+        .enumerate()
+        .map(|(i, d)| {
+            Ok(DataSpec {
+                path: base.join(&d.file),
+                instrument: d.instrument,
+                unit: d.unit,
+                time: time_standard(&format!("data[{i}].time"), &d.time)?,
+            })
+        })
+        .collect::<Result<Vec<_>, TargetError>>()?;
+
+    let mut transits = Vec::new();
+    for (i, t) in raw.transit.into_iter().enumerate() {
+        let key = |k: &str| format!("transit[{i}].{k}");
+        positive(&key("period_d"), t.period_d)?;
+        non_negative(&key("period_err_d"), t.period_err_d)?;
+        non_negative(&key("tc_err_d"), t.tc_err_d)?;
+        let std = time_standard(&key("time"), &t.time)?;
+        let tc_bjd = std.full_jd(t.tc);
+        if !(tc_bjd.is_finite() && tc_bjd > 2_000_000.0) {
+            return Err(invalid(
+                &key("tc"),
+                format!(
+                    "{} in {std} is full Julian date {tc_bjd}, not a plausible epoch; declare the time standard with `time`",
+                    t.tc
+                ),
+            ));
+        }
+        let pair = |k: &str, v: Option<f64>, e: f64| -> Result<Option<(f64, f64)>, TargetError> {
+            match v {
+                None => Ok(None),
+                Some(v) => {
+                    positive(&key(k), v)?;
+                    non_negative(&key(&format!("{k}_err")), e)?;
+                    Ok(Some((v, e)))
+                }
+            }
+        };
+        let rp_rs = match (t.rp_rs, t.depth_ppm) {
+            (Some(_), Some(_)) => {
+                return Err(invalid(&key("depth_ppm"), "give rp_rs or depth_ppm, not both".into()));
+            }
+            (Some(r), None) => pair("rp_rs", Some(r), t.rp_rs_err)?,
+            // Depth = (Rp/R*)^2 for a uniform disc (limb darkening ignored).
+            (None, Some(d)) => pair("depth_ppm", Some(d), t.depth_err_ppm)?
+                .map(|(d, e)| ((d * 1e-6).sqrt(), 0.5 * e / d * (d * 1e-6).sqrt())),
+            (None, None) => None,
+        };
+        if let Some((r, _)) = rp_rs
+            && r >= 1.0
+        {
+            return Err(invalid(&key("rp_rs"), format!("radius ratio {r} must be below 1")));
+        }
+        let incl = pair("incl_deg", t.incl_deg, t.incl_err_deg)?;
+        if let Some((i_deg, _)) = incl
+            && i_deg > 90.0
+        {
+            return Err(invalid(&key("incl_deg"), format!("{i_deg} must be in (0, 90]")));
+        }
+        transits.push(Transit {
+            label: t.label,
+            period_d: t.period_d,
+            period_err_d: t.period_err_d,
+            tc_bjd,
+            tc_err_d: t.tc_err_d,
+            rp_rs,
+            incl_deg: incl,
+            impact: match t.impact {
+                Some(b) => {
+                    non_negative(&key("impact"), b)?;
+                    Some((b, t.impact_err))
+                }
+                None => None,
+            },
+            a_rs: pair("a_rs", t.a_rs, t.a_rs_err)?,
+            duration_h: pair("duration_h", t.duration_h, t.duration_err_h)?,
+        });
+    }
+
+    let s = &raw.settings;
+    positive("settings.period_min_d", s.period_min_d)?;
+    if let Some(p) = s.period_max_d {
+        positive("settings.period_max_d", p)?;
+        if p <= s.period_min_d {
+            return Err(invalid(
+                "settings.period_max_d",
+                format!("{p} must exceed period_min_d = {}", s.period_min_d),
+            ));
+        }
+    }
+    if !(s.oversample.is_finite() && s.oversample >= 1.0) {
+        return Err(invalid("settings.oversample", format!("must be at least 1, got {}", s.oversample)));
+    }
+    if !(s.fap_threshold > 0.0 && s.fap_threshold < 1.0) {
+        return Err(invalid(
+            "settings.fap_threshold",
+            format!("must be in (0, 1), got {}", s.fap_threshold),
+        ));
+    }
+    if s.trend > 2 {
+        return Err(invalid("settings.trend", format!("order must be 0, 1 or 2, got {}", s.trend)));
+    }
+    if s.draws < 100 {
+        return Err(invalid("settings.draws", format!("need at least 100, got {}", s.draws)));
+    }
+
+    Ok(Target {
+        name: raw.name,
+        path: path.to_path_buf(),
+        star,
+        data,
+        transits,
+        settings: raw.settings,
+    })
+}
