@@ -1,1 +1,222 @@
-//! Runs the whole pipeline for one target.
+//! Runs the stages in order for one data set: signal search and joint fit, then the
+//! derived planet properties from Monte Carlo draws. [`run_target`] does it for a target
+//! file, [`analyse`] for data already loaded (the `fit` command).
+
+use rand::SeedableRng;
+use rand_chacha::ChaCha8Rng;
+use serde::Serialize;
+
+use crate::data::{self, DataError, RvSet};
+use crate::derive::{self, OrbitDraws, PlanetDerived, StarDraws, TransitDraws};
+use crate::fit::{self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount};
+use crate::periodogram;
+use crate::target::{Settings, Star, Target, Transit};
+
+/// Why an analysis stopped.
+#[derive(Debug, thiserror::Error)]
+pub enum PipelineError {
+    /// The data could not be read.
+    #[error(transparent)]
+    Data(#[from] DataError),
+    /// The fit or search failed.
+    #[error(transparent)]
+    Fit(#[from] FitError),
+}
+
+/// A constraint or bound the analysis used, recorded in results.json.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Prior {
+    /// Parameter, e.g. `b.period_d`.
+    pub parameter: String,
+    /// `gaussian`, `fixed` or `bound`.
+    pub kind: &'static str,
+    /// Description with values and units.
+    pub detail: String,
+}
+
+/// What to analyse and how.
+#[derive(Clone, Debug)]
+pub struct Request<'a> {
+    /// Name shown in outputs.
+    pub name: String,
+    /// The data.
+    pub set: RvSet,
+    /// Stellar parameters, if known (needed for masses).
+    pub star: Option<&'a Star>,
+    /// Transit constraints of known planets.
+    pub transits: &'a [Transit],
+    /// Periods (days) to start from, beside the transits.
+    pub periods: Vec<f64>,
+    /// Hold the starting periods fixed.
+    pub fix_periods: bool,
+    /// Search and model settings.
+    pub search: SearchSettings,
+    /// Seed of every random draw.
+    pub seed: u64,
+    /// Monte Carlo draws for derived quantities.
+    pub draws: usize,
+}
+
+/// Everything a report needs.
+#[derive(Clone, Debug)]
+pub struct Analysis {
+    /// Name of the system.
+    pub name: String,
+    /// The data analysed.
+    pub set: RvSet,
+    /// Search rounds and the final fit.
+    pub search: Search,
+    /// Derived properties of each fitted planet (same order), when a star was given.
+    pub derived: Vec<Option<PlanetDerived>>,
+    /// Constraints and bounds used.
+    pub priors: Vec<Prior>,
+    /// Seed used.
+    pub seed: u64,
+    /// Monte Carlo draws used for derived quantities.
+    pub draws: usize,
+}
+
+/// Search settings from a target file's settings.
+pub fn search_settings(s: &Settings) -> SearchSettings {
+    SearchSettings {
+        period_min_d: s.period_min_d,
+        period_max_d: s.period_max_d,
+        oversample: s.oversample,
+        fap_threshold: s.fap_threshold,
+        count: SignalCount::UpTo(s.max_signals),
+        options: FitOptions {
+            shape: s.orbit,
+            trend: s.trend,
+            ..FitOptions::default()
+        },
+    }
+}
+
+/// Reads the target's data and analyses it with the target's settings.
+///
+/// # Errors
+/// [`PipelineError`] for unreadable or invalid data and failed fits.
+pub fn run_target(target: &Target) -> Result<Analysis, PipelineError> {
+    let set = data::load(&target.data)?;
+    analyse(Request {
+        name: target.name.clone(),
+        set,
+        star: Some(&target.star),
+        transits: &target.transits,
+        periods: Vec::new(),
+        fix_periods: false,
+        search: search_settings(&target.settings),
+        seed: target.settings.seed,
+        draws: target.settings.draws,
+    })
+}
+
+/// Searches, fits and derives.
+///
+/// # Errors
+/// [`PipelineError`] for failed fits (too few points, bad starting periods, …).
+pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
+    let set = &req.set;
+    let mut known = Vec::new();
+    let mut priors = vec![Prior {
+        parameter: "ecc".into(),
+        kind: "bound",
+        detail: format!("0 <= e <= {}", req.search.options.max_ecc),
+    }];
+    for t in req.transits {
+        let tc_rel = t.tc_bjd - set.epoch_bjd;
+        let mut spec = start_at(set, t.period_d, &t.label)?;
+        spec.tc_d = tc_rel;
+        spec.fix_period = t.period_err_d == 0.0;
+        if spec.fix_period {
+            priors.push(Prior {
+                parameter: format!("{}.period_d", t.label),
+                kind: "fixed",
+                detail: format!("{} d (transit period given without uncertainty)", t.period_d),
+            });
+        } else {
+            spec.period_prior = Some((t.period_d, t.period_err_d));
+            priors.push(Prior {
+                parameter: format!("{}.period_d", t.label),
+                kind: "gaussian",
+                detail: format!("{} ± {} d (transits)", t.period_d, t.period_err_d),
+            });
+        }
+        // A conjunction time given without uncertainty is taken as known to 1e-5 d
+        // (about a second), far better than any RV data can tell.
+        let tc_sd = if t.tc_err_d > 0.0 { t.tc_err_d } else { 1e-5 };
+        spec.tc_prior = Some((tc_rel, tc_sd));
+        priors.push(Prior {
+            parameter: format!("{}.tc_d", t.label),
+            kind: "gaussian",
+            detail: format!("{} ± {} BJD_TDB (transits)", t.tc_bjd, tc_sd),
+        });
+        known.push(spec);
+    }
+    for &p in &req.periods {
+        let mut spec = start_at(set, p, &fit::next_label(&known))?;
+        spec.fix_period = req.fix_periods;
+        if req.fix_periods {
+            priors.push(Prior {
+                parameter: format!("{}.period_d", spec.label),
+                kind: "fixed",
+                detail: format!("{p} d (held fixed on request)"),
+            });
+        }
+        known.push(spec);
+    }
+    let search = fit::search(set, &known, &req.search)?;
+
+    let mut rng = ChaCha8Rng::seed_from_u64(req.seed);
+    let derived = match req.star {
+        None => vec![None; search.fit.planets.len()],
+        Some(star) => {
+            let elements = search.fit.element_draws(req.draws, &mut rng);
+            let star_draws = StarDraws::sample(star, req.draws, &mut rng);
+            elements
+                .iter()
+                .zip(&search.fit.planets)
+                .map(|(el, planet)| {
+                    let orbit = OrbitDraws {
+                        period_d: el.iter().map(|x| x.0).collect(),
+                        k_mps: el.iter().map(|x| x.1).collect(),
+                        ecc: el.iter().map(|x| x.2).collect(),
+                    };
+                    let transit = req
+                        .transits
+                        .iter()
+                        .find(|t| t.label == planet.label)
+                        .map(|t| TransitDraws::sample(t, req.draws, &mut rng));
+                    Some(derive::derive_planet(&orbit, &star_draws, transit.as_ref()))
+                })
+                .collect()
+        }
+    };
+    Ok(Analysis {
+        name: req.name,
+        set: req.set.clone(),
+        search,
+        derived,
+        priors,
+        seed: req.seed,
+        draws: req.draws,
+    })
+}
+
+/// A planet started at period `p` with the amplitude and phase of the best sinusoid.
+fn start_at(set: &RvSet, period_d: f64, label: &str) -> Result<PlanetSpec, FitError> {
+    if !(period_d.is_finite() && period_d > 0.0) {
+        return Err(FitError::Start(format!("period {period_d} d")));
+    }
+    let sine = periodogram::sinusoid_at(set, &[], 1.0 / period_d)?;
+    Ok(PlanetSpec {
+        period_d,
+        fix_period: false,
+        k_mps: sine.amplitude_mps(),
+        tc_d: sine.conjunction_d(),
+        ecc_vector: (0.0, 0.0),
+        period_prior: None,
+        tc_prior: None,
+        label: label.to_string(),
+    })
+}

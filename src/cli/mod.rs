@@ -6,7 +6,11 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod fit;
+mod input;
 mod mass;
+mod periodogram;
+mod run;
 
 /// heft: weighs exoplanets from the reflex motion of their star.
 #[derive(Parser)]
@@ -18,8 +22,14 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// Generalised Lomb–Scargle periodogram of RV tables, with peaks and FAPs.
+    Periodogram(periodogram::PeriodogramArgs),
+    /// Find the signals in RV tables and fit them jointly.
+    Fit(fit::FitArgs),
     /// Planet mass (and density, with a radius) from P, K, e and the stellar mass.
     Mass(mass::MassArgs),
+    /// Run the whole pipeline for a target file into a new run folder.
+    Run(run::RunArgs),
 }
 
 /// A command's failure, sorted by who is at fault.
@@ -28,6 +38,24 @@ pub enum Failure {
     Input(anyhow::Error),
     /// Something went wrong inside heft (exit 1).
     Internal(anyhow::Error),
+}
+
+/// Prints an analysis as JSON or as the text summary.
+pub fn print_results(analysis: &heft::pipeline::Analysis, json: bool) -> Result<ExitCode, Failure> {
+    let text = if json {
+        let doc = heft::report::results_json(analysis);
+        let mut s = serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))?;
+        s.push('\n');
+        s
+    } else {
+        heft::report::summary_text(analysis)
+    };
+    use std::io::Write;
+    std::io::stdout()
+        .lock()
+        .write_all(text.as_bytes())
+        .map_err(|e| Failure::Internal(e.into()))?;
+    Ok(ExitCode::SUCCESS)
 }
 
 /// Entry point of the binary.
@@ -41,7 +69,10 @@ pub fn main() -> ExitCode {
         }
     };
     let result = match cli.command {
+        Command::Periodogram(args) => periodogram::run(&args),
+        Command::Fit(args) => fit::run(&args),
         Command::Mass(args) => mass::run(&args),
+        Command::Run(args) => run::run(&args),
     };
     match result {
         Ok(code) => code,

@@ -1,1 +1,447 @@
-//! (module under construction in this change)
+//! Maximum-likelihood fit of planets, instrument offsets and jitters and a trend, with
+//! uncertainties from the curvature of the likelihood at the optimum, and the iterative
+//! periodogram search that decides how many signals to fit.
+//!
+//! Entry points: [`fit`] for a given set of planets, [`search`] to find them.
+
+mod layout;
+mod objective;
+mod optimize;
+mod search;
+
+pub use layout::{Layout, PlanetSpec, Role};
+pub use search::{Search, SearchSettings, SearchStep, SignalCount, next_label, search};
+
+use nalgebra::{DMatrix, DVector, SymmetricEigen};
+use rand::Rng;
+use rand_distr::StandardNormal;
+use serde::Serialize;
+
+use crate::data::RvSet;
+use crate::model::Params;
+use crate::orbit::periastron_from_conjunction;
+use crate::summary::{Summary, wrap_pi};
+use crate::target::OrbitShape;
+use objective::Objective;
+
+/// Why a fit could not be made.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum FitError {
+    /// More free parameters than data points.
+    #[error("{params} free parameters but only {points} points: fit fewer planets, a circular orbit or no trend")]
+    TooFewPoints {
+        /// Free parameters.
+        params: usize,
+        /// Data points.
+        points: usize,
+    },
+    /// A starting value is unusable.
+    #[error("invalid starting value: {0}")]
+    Start(String),
+    /// The optimiser found no finite likelihood.
+    #[error("the optimiser found no finite likelihood; check the data and starting periods")]
+    NoFiniteLikelihood,
+    /// The periodogram stage failed.
+    #[error(transparent)]
+    Periodogram(#[from] crate::periodogram::PeriodogramError),
+}
+
+/// Model options of a fit.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct FitOptions {
+    /// Orbit shape of every planet.
+    pub shape: OrbitShape,
+    /// Trend order (0 none, 1 linear, 2 quadratic).
+    pub trend: usize,
+    /// Eccentricity cap (default 0.95).
+    pub max_ecc: f64,
+}
+
+impl Default for FitOptions {
+    fn default() -> Self {
+        FitOptions {
+            shape: OrbitShape::Eccentric,
+            trend: 1,
+            max_ecc: 0.95,
+        }
+    }
+}
+
+/// One planet's estimated elements (values best fit, errors from the curvature).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct PlanetEstimate {
+    /// Planet label.
+    pub label: String,
+    /// Period, days.
+    pub period_d: Summary,
+    /// Semi-amplitude, m/s.
+    pub k_mps: Summary,
+    /// Eccentricity.
+    pub ecc: Summary,
+    /// Star's argument of periastron, degrees in [0, 360).
+    pub omega_deg: Summary,
+    /// Conjunction time, full BJD_TDB.
+    pub tc_d: Summary,
+    /// Time of periastron, full BJD_TDB.
+    pub tp_d: Summary,
+}
+
+/// One instrument's estimated offset and jitter and residual scatter.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct InstrumentEstimate {
+    /// Instrument name.
+    pub name: String,
+    /// Number of points.
+    pub n_points: usize,
+    /// Zero point, m/s.
+    pub offset_mps: Summary,
+    /// Jitter, m/s.
+    pub jitter_mps: Summary,
+    /// Root-mean-square residual, m/s.
+    pub rms_mps: f64,
+}
+
+/// A finished maximum-likelihood fit.
+#[derive(Clone, Debug)]
+pub struct Fit {
+    /// Parameter layout.
+    pub layout: Layout,
+    /// Best-fit θ.
+    pub theta: Vec<f64>,
+    /// Best-fit model parameters.
+    pub params: Params,
+    /// Name of each θ entry.
+    pub names: Vec<String>,
+    /// Covariance of θ from the inverse Hessian of the objective.
+    pub covariance: DMatrix<f64>,
+    /// Reference epoch of the data (full BJD_TDB).
+    pub epoch_bjd: f64,
+    /// ln L at the optimum (likelihood only, no constraints).
+    pub log_likelihood: f64,
+    /// Number of points fitted.
+    pub n_points: usize,
+    /// Number of free parameters.
+    pub n_params: usize,
+    /// Per-planet estimates.
+    pub planets: Vec<PlanetEstimate>,
+    /// Per-instrument estimates.
+    pub instruments: Vec<InstrumentEstimate>,
+    /// Trend coefficients, m/s/yr^k (k = 1, 2).
+    pub trend: Vec<Summary>,
+    /// Model options used.
+    pub options: FitOptions,
+    /// Findings worth showing the user.
+    pub warnings: Vec<String>,
+}
+
+impl Fit {
+    /// Bayesian information criterion `k ln N − 2 ln L`.
+    pub fn bic(&self) -> f64 {
+        self.n_params as f64 * (self.n_points as f64).ln() - 2.0 * self.log_likelihood
+    }
+
+    /// Akaike information criterion `2k − 2 ln L`.
+    pub fn aic(&self) -> f64 {
+        2.0 * self.n_params as f64 - 2.0 * self.log_likelihood
+    }
+
+    /// `n` draws of θ from the Gaussian approximation `N(θ̂, C)` of the likelihood.
+    pub fn theta_draws(&self, n: usize, rng: &mut impl Rng) -> Vec<Vec<f64>> {
+        let eig = SymmetricEigen::new(self.covariance.clone());
+        let root: Vec<f64> = eig.eigenvalues.iter().map(|l| l.max(0.0).sqrt()).collect();
+        let dim = self.theta.len();
+        (0..n)
+            .map(|_| {
+                let z = DVector::from_fn(dim, |i, _| root[i] * rng.sample::<f64, _>(StandardNormal));
+                let d = &eig.eigenvectors * z;
+                self.theta.iter().zip(d.iter()).map(|(t, d)| t + d).collect()
+            })
+            .collect()
+    }
+
+    /// Draws of each planet's `(P [d], K [m/s], e)` from [`Fit::theta_draws`]: one
+    /// `Vec` of triples per planet.
+    pub fn element_draws(&self, n: usize, rng: &mut impl Rng) -> Vec<Vec<(f64, f64, f64)>> {
+        let draws = self.theta_draws(n, rng);
+        (0..self.layout.planets.len())
+            .map(|i| {
+                draws
+                    .iter()
+                    .map(|th| {
+                        let [p, k, ec, es, _] = self.layout.planet_elements(th, i);
+                        (p, k.abs(), ec.hypot(es).min(self.options.max_ecc))
+                    })
+                    .collect()
+            })
+            .collect()
+    }
+}
+
+/// Fits `planets` (starting values and constraints) with the given model options.
+///
+/// Several starts are tried for eccentric orbits (the given one, and each planet in turn
+/// started at e = 0.3 with ω at 0°, 90°, 180°, 270°); the best is kept. A negative
+/// semi-amplitude is turned into the equivalent positive one and refitted.
+///
+/// # Errors
+/// [`FitError`] when there are more parameters than points or no finite likelihood.
+pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<Fit, FitError> {
+    for p in planets {
+        if !(p.period_d.is_finite() && p.period_d > 0.0) {
+            return Err(FitError::Start(format!("period {} d of planet {}", p.period_d, p.label)));
+        }
+    }
+    let layout = Layout::new(planets.to_vec(), options.shape, set.n_instruments(), options.trend);
+    if layout.len() >= set.len() {
+        return Err(FitError::TooFewPoints {
+            params: layout.len(),
+            points: set.len(),
+        });
+    }
+    let objective = Objective {
+        set,
+        layout: &layout,
+        max_ecc: options.max_ecc,
+    };
+    let scale = layout.scales(set);
+    let start = initial_theta(set, &layout);
+    let mut starts = vec![start.clone()];
+    if options.shape == OrbitShape::Eccentric {
+        for i in 0..planets.len() {
+            let ie = layout.index(Role::ECosW(i)).expect("eccentric layout has e cos w");
+            for q in 0..4 {
+                let w = f64::from(q) * std::f64::consts::FRAC_PI_2;
+                let mut s = start.clone();
+                s[ie] = 0.3 * w.cos();
+                s[ie + 1] = 0.3 * w.sin();
+                starts.push(s);
+            }
+        }
+    }
+    let mut best: Option<(Vec<f64>, f64)> = None;
+    for s in starts {
+        let (theta, value) = optimize::minimise(&objective, &s, &scale, 4);
+        if best.as_ref().is_none_or(|b| value < b.1) {
+            best = Some((theta, value));
+        }
+    }
+    let (mut theta, mut value) = best.ok_or(FitError::NoFiniteLikelihood)?;
+    if flip_negative_amplitudes(&layout, &mut theta, options.max_ecc) {
+        (theta, value) = optimize::minimise(&objective, &theta, &scale, 4);
+    }
+    if !value.is_finite() {
+        return Err(FitError::NoFiniteLikelihood);
+    }
+    Ok(finish(set, layout, theta, options))
+}
+
+/// θ from the specs, offsets at each instrument's weighted mean of the data minus the
+/// starting planets, jitters at each instrument's median error.
+fn initial_theta(set: &RvSet, layout: &Layout) -> Vec<f64> {
+    let n = set.n_instruments();
+    let zero = layout.initial(&vec![0.0; n], &vec![0.0; n], &[]);
+    let params = layout.params(&zero, 0.95);
+    let mut sum_w = vec![0.0; n];
+    let mut sum_wy = vec![0.0; n];
+    let mut errs: Vec<Vec<f64>> = vec![Vec::new(); n];
+    for i in 0..set.len() {
+        let k = set.instrument[i];
+        let w = set.err_mps[i].powi(-2);
+        let planets = params.as_ref().map_or(0.0, |p| p.planets_rv(set.time_d[i]));
+        sum_w[k] += w;
+        sum_wy[k] += w * (set.rv_mps[i] - planets);
+        errs[k].push(set.err_mps[i]);
+    }
+    let offsets: Vec<f64> = (0..n).map(|k| sum_wy[k] / sum_w[k].max(1e-300)).collect();
+    let jitters: Vec<f64> = errs
+        .iter_mut()
+        .map(|e| {
+            e.sort_by(f64::total_cmp);
+            e.get(e.len() / 2).copied().unwrap_or(1.0)
+        })
+        .collect();
+    layout.initial(&offsets, &jitters, &[])
+}
+
+/// Replaces each K < 0 by −K with ω → ω + π, keeping the time of periastron (so the
+/// curve is unchanged) and moving Tc to the conjunction of the new ω. Returns whether
+/// anything changed.
+fn flip_negative_amplitudes(layout: &Layout, theta: &mut [f64], max_ecc: f64) -> bool {
+    let mut changed = false;
+    for i in 0..layout.planets.len() {
+        let [p, k, ec, es, tc] = layout.planet_elements(theta, i);
+        if k >= 0.0 {
+            continue;
+        }
+        changed = true;
+        let e = ec.hypot(es).min(max_ecc);
+        let w = es.atan2(ec);
+        let tp = periastron_from_conjunction(p, e, w, tc);
+        let w_new = w + std::f64::consts::PI;
+        // Tc − Tp for the new ω, from the same chain with Tc = 0.
+        let offset = -periastron_from_conjunction(p, e, w_new, 0.0);
+        let tc_new = tp + offset;
+        // Choose the conjunction nearest the old one.
+        let tc_new = tc_new + ((tc - tc_new) / p).round() * p;
+        let set_role = |theta: &mut [f64], role: Role, v: f64| {
+            if let Some(j) = layout.index(role) {
+                theta[j] = v;
+            }
+        };
+        set_role(theta, Role::K(i), -k);
+        set_role(theta, Role::ECosW(i), -ec);
+        set_role(theta, Role::ESinW(i), -es);
+        set_role(theta, Role::Tc(i), tc_new);
+    }
+    changed
+}
+
+/// Covariance from the Hessian and the summaries of every reported quantity.
+fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) -> Fit {
+    let objective = Objective {
+        set,
+        layout: &layout,
+        max_ecc: options.max_ecc,
+    };
+    let scale = layout.scales(set);
+    let h: Vec<f64> = scale.iter().map(|s| 1e-3 * s).collect();
+    let hess = objective::hessian(&|x: &[f64]| objective.value(x), &theta, &h);
+    let mut warnings = Vec::new();
+    let covariance = invert_psd(&hess, &mut warnings, &layout.names(&set.instruments));
+    let params = layout
+        .params(&theta, options.max_ecc)
+        .expect("the optimum has finite parameters");
+    let log_likelihood = params.log_likelihood(set);
+    let sigma_of = |q: &dyn Fn(&[f64]) -> f64| -> f64 {
+        let g = objective::gradient(q, &theta, &h);
+        let g = DVector::from_vec(g);
+        (g.transpose() * &covariance * &g)[(0, 0)].max(0.0).sqrt()
+    };
+    let at = |i: usize| Summary::symmetric(theta[i], covariance[(i, i)].max(0.0).sqrt());
+    let epoch = set.epoch_bjd;
+
+    let planets = (0..layout.planets.len())
+        .map(|i| {
+            let el = |th: &[f64]| layout.planet_elements(th, i);
+            let [p, k, ec, es, tc] = el(&theta);
+            let e = ec.hypot(es).min(options.max_ecc);
+            let w = if e > 0.0 { es.atan2(ec) } else { 0.0 };
+            let tp = periastron_from_conjunction(p, e, w, tc);
+            let period = match layout.index(Role::Period(i)) {
+                Some(j) => at(j),
+                None => Summary::exact(p),
+            };
+            let jk = layout.index(Role::K(i)).expect("K is always free");
+            let (ecc, omega) = if options.shape == OrbitShape::Eccentric {
+                (
+                    Summary::symmetric(e, sigma_of(&|th| {
+                        let [_, _, c, s, _] = el(th);
+                        c.hypot(s)
+                    })),
+                    Summary::symmetric(
+                        w.to_degrees().rem_euclid(360.0),
+                        sigma_of(&|th| {
+                            let [_, _, c, s, _] = el(th);
+                            wrap_pi(s.atan2(c) - w)
+                        })
+                        .to_degrees(),
+                    ),
+                )
+            } else {
+                (Summary::exact(0.0), Summary::exact(0.0))
+            };
+            let tc_sigma = sigma_of(&|th| el(th)[4]);
+            let tp_sigma = sigma_of(&|th| {
+                let [p, _, c, s, t] = el(th);
+                let e = c.hypot(s).min(options.max_ecc);
+                let w = if e > 0.0 { s.atan2(c) } else { 0.0 };
+                periastron_from_conjunction(p, e, w, t)
+            });
+            PlanetEstimate {
+                label: layout.planets[i].label.clone(),
+                period_d: period,
+                k_mps: Summary::symmetric(k.abs(), covariance[(jk, jk)].max(0.0).sqrt()),
+                ecc,
+                omega_deg: omega,
+                tc_d: Summary::symmetric(tc + epoch, tc_sigma),
+                tp_d: Summary::symmetric(tp + epoch, tp_sigma),
+            }
+        })
+        .collect();
+
+    let residuals = params.residuals(set);
+    let instruments = (0..set.n_instruments())
+        .map(|k| {
+            let r: Vec<f64> = (0..set.len())
+                .filter(|&i| set.instrument[i] == k)
+                .map(|i| residuals[i])
+                .collect();
+            let jo = layout.index(Role::Offset(k)).expect("offsets are always free");
+            let js = layout.index(Role::Jitter(k)).expect("jitters are always free");
+            InstrumentEstimate {
+                name: set.instruments[k].clone(),
+                n_points: r.len(),
+                offset_mps: at(jo),
+                jitter_mps: Summary::symmetric(theta[js].abs(), covariance[(js, js)].max(0.0).sqrt()),
+                rms_mps: (r.iter().map(|x| x * x).sum::<f64>() / r.len().max(1) as f64).sqrt(),
+            }
+        })
+        .collect();
+    let trend = (1..=layout.trend)
+        .map(|k| at(layout.index(Role::Trend(k)).expect("trend terms are free")))
+        .collect();
+    for (i, p) in params.planets.iter().enumerate() {
+        if p.ecc() >= options.max_ecc - 1e-6 {
+            warnings.push(format!(
+                "planet {}: eccentricity reached the cap {}",
+                layout.planets[i].label, options.max_ecc
+            ));
+        }
+    }
+    Fit {
+        names: layout.names(&set.instruments),
+        n_params: layout.len(),
+        layout,
+        theta,
+        params,
+        covariance,
+        epoch_bjd: epoch,
+        log_likelihood,
+        n_points: set.len(),
+        planets,
+        instruments,
+        trend,
+        options: *options,
+        warnings,
+    }
+}
+
+/// Inverse of a Hessian that should be positive definite. Directions with non-positive
+/// curvature (a jitter fitted at zero, say) get zero variance and a warning naming the
+/// parameters most involved.
+fn invert_psd(hess: &DMatrix<f64>, warnings: &mut Vec<String>, names: &[String]) -> DMatrix<f64> {
+    if let Some(ch) = hess.clone().cholesky() {
+        return ch.inverse();
+    }
+    let eig = SymmetricEigen::new(hess.clone());
+    let max = eig.eigenvalues.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+    let n = hess.nrows();
+    let mut inv = DMatrix::zeros(n, n);
+    for (j, &l) in eig.eigenvalues.iter().enumerate() {
+        let v = eig.eigenvectors.column(j);
+        if l > 1e-12 * max {
+            inv += v * v.transpose() / l;
+        } else {
+            let worst = v
+                .iter()
+                .enumerate()
+                .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
+                .map(|(i, _)| names[i].clone())
+                .unwrap_or_default();
+            warnings.push(format!(
+                "the likelihood is flat or curved the wrong way along a direction dominated by {worst}: its uncertainty is not defined by the curvature (reported as 0)"
+            ));
+        }
+    }
+    inv
+}

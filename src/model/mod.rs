@@ -1,1 +1,114 @@
-//! (module under construction in this change)
+//! The full RV model: planets + one offset and one jitter per instrument + a polynomial
+//! trend, and its Gaussian log-likelihood. Pure functions of [`Params`] and the data.
+
+use crate::data::RvSet;
+use crate::orbit::Orbit;
+
+/// Days per Julian year, the time unit of trend coefficients.
+pub const DAYS_PER_YEAR: f64 = 365.25;
+
+/// Values of every model parameter.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Params {
+    /// One Keplerian per planet (times in days from the data's reference epoch).
+    pub planets: Vec<Orbit>,
+    /// Zero point of each instrument, m/s.
+    pub offsets_mps: Vec<f64>,
+    /// Extra white noise of each instrument, m/s (≥ 0).
+    pub jitters_mps: Vec<f64>,
+    /// Trend coefficients: `trend[k-1]` multiplies `(t / 1 yr)^k`, in m/s/yr^k, with `t`
+    /// counted from the reference epoch. Empty for no trend.
+    pub trend: Vec<f64>,
+}
+
+impl Params {
+    /// Sum of the planets' Keplerian RVs at `t_d`, m/s.
+    #[inline]
+    pub fn planets_rv(&self, t_d: f64) -> f64 {
+        self.planets.iter().map(|p| p.rv(t_d)).sum()
+    }
+
+    /// Trend value at `t_d` (days from the reference epoch), m/s.
+    #[inline]
+    pub fn trend_rv(&self, t_d: f64) -> f64 {
+        let x = t_d / DAYS_PER_YEAR;
+        self.trend.iter().rev().fold(0.0, |acc, c| (acc + c) * x)
+    }
+
+    /// Model RV of every point of `set` (planets + offset + trend), m/s.
+    pub fn predict(&self, set: &RvSet) -> Vec<f64> {
+        (0..set.len())
+            .map(|i| {
+                let t = set.time_d[i];
+                self.planets_rv(t) + self.offsets_mps[set.instrument[i]] + self.trend_rv(t)
+            })
+            .collect()
+    }
+
+    /// Observed minus model, m/s.
+    pub fn residuals(&self, set: &RvSet) -> Vec<f64> {
+        self.predict(set)
+            .iter()
+            .zip(&set.rv_mps)
+            .map(|(m, v)| v - m)
+            .collect()
+    }
+
+    /// Gaussian log-likelihood of `set` under these parameters (see [`log_likelihood`]).
+    pub fn log_likelihood(&self, set: &RvSet) -> f64 {
+        let mut total = 0.0;
+        for i in 0..set.len() {
+            let t = set.time_d[i];
+            let k = set.instrument[i];
+            let r = set.rv_mps[i] - self.planets_rv(t) - self.offsets_mps[k] - self.trend_rv(t);
+            total += point_log_likelihood(r, set.err_mps[i], self.jitters_mps[k]);
+        }
+        total
+    }
+}
+
+/// Log-density of one residual `r` with error `sigma` and jitter `s` (all m/s):
+/// `-1/2 [r²/(σ² + s²) + ln(2π(σ² + s²))]`.
+#[inline]
+pub fn point_log_likelihood(r: f64, sigma: f64, s: f64) -> f64 {
+    let var = sigma * sigma + s * s;
+    -0.5 * (r * r / var + (std::f64::consts::TAU * var).ln())
+}
+
+/// Gaussian log-likelihood with per-instrument jitter,
+/// `ln L = -1/2 Σ [r²/(σ² + s²) + ln(2π(σ² + s²))]` (jitter as a fitted parameter:
+/// Baluev 2009, MNRAS 393, 969).
+pub fn log_likelihood(residuals: &[f64], err: &[f64], instrument: &[usize], jitters: &[f64]) -> f64 {
+    residuals
+        .iter()
+        .zip(err)
+        .zip(instrument)
+        .map(|((&r, &e), &k)| point_log_likelihood(r, e, jitters[k]))
+        .sum()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Check values of references.md §15 ([C], from the stated formula).
+    #[test]
+    fn reference_log_likelihoods() {
+        assert!((log_likelihood(&[1.0], &[1.0], &[0], &[1.0]) + 1.5155121).abs() < 1e-7);
+        assert!((log_likelihood(&[1.0], &[1.0], &[0], &[0.0]) + 1.4189385).abs() < 1e-7);
+        let l = log_likelihood(&[1.0, -2.0, 0.5], &[1.0, 1.0, 2.0], &[0, 0, 0], &[1.5]);
+        assert!((l + 5.6409921).abs() < 1e-7);
+    }
+
+    #[test]
+    fn trend_polynomial_in_years() {
+        let p = Params {
+            planets: vec![],
+            offsets_mps: vec![0.0],
+            jitters_mps: vec![0.0],
+            trend: vec![2.0, 0.5],
+        };
+        let t = 2.0 * DAYS_PER_YEAR;
+        assert!((p.trend_rv(t) - (2.0 * 2.0 + 0.5 * 4.0)).abs() < 1e-12);
+    }
+}

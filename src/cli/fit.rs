@@ -1,0 +1,103 @@
+//! `heft fit`: search for signals and fit them jointly from RV tables.
+
+use std::process::ExitCode;
+
+use heft::fit::{FitOptions, SearchSettings, SignalCount};
+use heft::pipeline::{self, Request};
+use heft::target::{OrbitShape, Settings, Star};
+
+use super::input::InputArgs;
+use super::{Failure, print_results};
+
+/// Arguments of `heft fit`.
+#[derive(clap::Args, Debug)]
+pub struct FitArgs {
+    #[command(flatten)]
+    input: InputArgs,
+    /// Fit exactly this many signals (default: as many as the periodogram search finds).
+    #[arg(long)]
+    planets: Option<usize>,
+    /// Start a signal at this period, days (repeatable).
+    #[arg(long = "period", value_name = "P")]
+    periods: Vec<f64>,
+    /// Hold the --period values fixed.
+    #[arg(long, requires = "periods")]
+    fix_period: bool,
+    /// Circular orbits (e = 0).
+    #[arg(long)]
+    circular: bool,
+    /// Polynomial trend order: 0 none, 1 linear, 2 quadratic.
+    #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u8).range(0..=2))]
+    trend: u8,
+    /// Stellar mass, solar masses (adds m sin i to each planet).
+    #[arg(long)]
+    mstar_msun: Option<f64>,
+    /// 1σ uncertainty of the stellar mass, solar masses.
+    #[arg(long, requires = "mstar_msun", default_value_t = 0.0)]
+    mstar_err: f64,
+    /// Seed of the Monte Carlo draws.
+    #[arg(long, default_value_t = 1)]
+    seed: u64,
+    /// Print results as JSON (schema heft-results/1).
+    #[arg(long)]
+    json: bool,
+}
+
+/// Runs the command.
+pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
+    let defaults = Settings::default();
+    let star = match args.mstar_msun {
+        Some(m) if !(m.is_finite() && m > 0.0) => {
+            return Err(Failure::Input(anyhow::anyhow!("--mstar-msun must be positive, got {m}")));
+        }
+        Some(m) => Some(Star {
+            mass_msun: m,
+            mass_err_msun: args.mstar_err.max(0.0),
+            radius_rsun: None,
+            radius_err_rsun: 0.0,
+            teff_k: None,
+            teff_err_k: 0.0,
+            age_gyr: None,
+        }),
+        None => None,
+    };
+    if let Some(p) = args.periods.iter().find(|p| !(p.is_finite() && **p > 0.0)) {
+        return Err(Failure::Input(anyhow::anyhow!("--period must be positive, got {p}")));
+    }
+    let count = match args.planets {
+        Some(n) => SignalCount::Exactly(n.max(args.periods.len())),
+        None if args.periods.is_empty() => SignalCount::UpTo(defaults.max_signals),
+        None => SignalCount::UpTo(defaults.max_signals.max(args.periods.len())),
+    };
+    let set = args.input.load()?;
+    let request = Request {
+        name: args
+            .input
+            .files
+            .iter()
+            .map(|f| f.display().to_string())
+            .collect::<Vec<_>>()
+            .join(", "),
+        set,
+        star: star.as_ref(),
+        transits: &[],
+        periods: args.periods.clone(),
+        fix_periods: args.fix_period,
+        search: SearchSettings {
+            period_min_d: defaults.period_min_d,
+            period_max_d: None,
+            oversample: defaults.oversample,
+            fap_threshold: defaults.fap_threshold,
+            count,
+            options: FitOptions {
+                shape: if args.circular { OrbitShape::Circular } else { OrbitShape::Eccentric },
+                trend: usize::from(args.trend),
+                ..FitOptions::default()
+            },
+        },
+        seed: args.seed,
+        draws: defaults.draws,
+    };
+    let analysis = pipeline::analyse(request).map_err(|e| Failure::Input(e.into()))?;
+    print_results(&analysis, args.json)
+}

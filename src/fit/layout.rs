@@ -1,0 +1,234 @@
+//! The parameter vector θ of a fit: which model parameters are free, their order, the
+//! mapping θ → [`Params`], and the natural scale of each for the optimiser and for
+//! finite differences.
+//!
+//! Per planet θ holds `P` (unless held fixed), `K`, `e cos ω`, `e sin ω` (eccentric
+//! orbits only) and `Tc`; then one offset and one jitter per instrument; then the trend
+//! coefficients. `(e cos ω, e sin ω)` is smooth through e = 0, where ω is undefined.
+
+use crate::data::RvSet;
+use crate::model::Params;
+use crate::orbit::Orbit;
+use crate::target::OrbitShape;
+
+/// How one planet enters the fit.
+#[derive(Clone, Debug, PartialEq)]
+pub struct PlanetSpec {
+    /// Starting period, days.
+    pub period_d: f64,
+    /// Hold the period at `period_d`.
+    pub fix_period: bool,
+    /// Starting semi-amplitude, m/s.
+    pub k_mps: f64,
+    /// Starting conjunction time, days from the data's reference epoch.
+    pub tc_d: f64,
+    /// Starting `(e cos ω, e sin ω)`.
+    pub ecc_vector: (f64, f64),
+    /// Gaussian constraint on the period `(mean, σ)` in days (e.g. from transits).
+    pub period_prior: Option<(f64, f64)>,
+    /// Gaussian constraint on the conjunction time `(mean, σ)`, days from the epoch.
+    pub tc_prior: Option<(f64, f64)>,
+    /// Label shown in outputs (e.g. "b").
+    pub label: String,
+}
+
+/// Position and kind of every free parameter.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Layout {
+    /// Planets as specified (fixed values are taken from here).
+    pub planets: Vec<PlanetSpec>,
+    /// Orbit shape of all planets.
+    pub shape: OrbitShape,
+    /// Number of instruments.
+    pub n_instruments: usize,
+    /// Trend order (0 = none).
+    pub trend: usize,
+    /// Index in θ of each planet's first parameter.
+    planet_start: Vec<usize>,
+    /// Index of the first offset.
+    offsets_start: usize,
+}
+
+/// A parameter's role, for names and scales.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Role {
+    /// Period of planet `i`.
+    Period(usize),
+    /// Semi-amplitude of planet `i`.
+    K(usize),
+    /// `e cos ω` of planet `i`.
+    ECosW(usize),
+    /// `e sin ω` of planet `i`.
+    ESinW(usize),
+    /// Conjunction time of planet `i`.
+    Tc(usize),
+    /// Offset of instrument `k`.
+    Offset(usize),
+    /// Jitter of instrument `k`.
+    Jitter(usize),
+    /// Trend coefficient of order `k` (1-based).
+    Trend(usize),
+}
+
+impl Layout {
+    /// Lays out θ for these planets and model options.
+    pub fn new(planets: Vec<PlanetSpec>, shape: OrbitShape, n_instruments: usize, trend: usize) -> Layout {
+        let mut planet_start = Vec::with_capacity(planets.len());
+        let mut at = 0;
+        for p in &planets {
+            planet_start.push(at);
+            at += usize::from(!p.fix_period) + 2 + if shape == OrbitShape::Eccentric { 2 } else { 0 };
+        }
+        Layout {
+            planets,
+            shape,
+            n_instruments,
+            trend,
+            planet_start,
+            offsets_start: at,
+        }
+    }
+
+    /// Number of free parameters.
+    pub fn len(&self) -> usize {
+        self.offsets_start + 2 * self.n_instruments + self.trend
+    }
+
+    /// True when θ is empty (never: offsets and jitters are always free).
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Role of each θ entry, in order.
+    pub fn roles(&self) -> Vec<Role> {
+        let mut roles = Vec::with_capacity(self.len());
+        for (i, p) in self.planets.iter().enumerate() {
+            if !p.fix_period {
+                roles.push(Role::Period(i));
+            }
+            roles.push(Role::K(i));
+            if self.shape == OrbitShape::Eccentric {
+                roles.push(Role::ECosW(i));
+                roles.push(Role::ESinW(i));
+            }
+            roles.push(Role::Tc(i));
+        }
+        roles.extend((0..self.n_instruments).map(Role::Offset));
+        roles.extend((0..self.n_instruments).map(Role::Jitter));
+        roles.extend((1..=self.trend).map(Role::Trend));
+        roles
+    }
+
+    /// Index in θ of a role, if that parameter is free.
+    pub fn index(&self, role: Role) -> Option<usize> {
+        self.roles().iter().position(|r| *r == role)
+    }
+
+    /// Planet `i`'s `(P, K, e cos ω, e sin ω, Tc)` read from θ (fixed values filled in).
+    pub fn planet_elements(&self, theta: &[f64], i: usize) -> [f64; 5] {
+        let spec = &self.planets[i];
+        let mut at = self.planet_start[i];
+        let mut next = || {
+            at += 1;
+            theta[at - 1]
+        };
+        let period = if spec.fix_period { spec.period_d } else { next() };
+        let k = next();
+        let (ec, es) = if self.shape == OrbitShape::Eccentric {
+            (next(), next())
+        } else {
+            (0.0, 0.0)
+        };
+        [period, k, ec, es, next()]
+    }
+
+    /// Offsets, jitters (absolute values: the likelihood is even in s) and trend from θ.
+    pub fn noise_and_trend(&self, theta: &[f64]) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+        let o = self.offsets_start;
+        let n = self.n_instruments;
+        (
+            theta[o..o + n].to_vec(),
+            theta[o + n..o + 2 * n].iter().map(|s| s.abs()).collect(),
+            theta[o + 2 * n..].to_vec(),
+        )
+    }
+
+    /// Model parameters from θ, with each eccentricity capped at `max_ecc` (the caller
+    /// penalises the excess). `None` for a non-positive period or non-finite values.
+    pub fn params(&self, theta: &[f64], max_ecc: f64) -> Option<Params> {
+        let mut planets = Vec::with_capacity(self.planets.len());
+        for i in 0..self.planets.len() {
+            let [p, k, ec, es, tc] = self.planet_elements(theta, i);
+            let e = ec.hypot(es);
+            let omega = if e > 0.0 { es.atan2(ec) } else { 0.0 };
+            planets.push(Orbit::new(p, k, e.min(max_ecc), omega, tc).ok()?);
+        }
+        let (offsets_mps, jitters_mps, trend) = self.noise_and_trend(theta);
+        if theta.iter().any(|x| !x.is_finite()) {
+            return None;
+        }
+        Some(Params {
+            planets,
+            offsets_mps,
+            jitters_mps,
+            trend,
+        })
+    }
+
+    /// θ from the planet specs' starting values and the given noise/trend values.
+    pub fn initial(&self, offsets: &[f64], jitters: &[f64], trend: &[f64]) -> Vec<f64> {
+        let mut theta = Vec::with_capacity(self.len());
+        for p in &self.planets {
+            if !p.fix_period {
+                theta.push(p.period_d);
+            }
+            theta.push(p.k_mps);
+            if self.shape == OrbitShape::Eccentric {
+                theta.push(p.ecc_vector.0);
+                theta.push(p.ecc_vector.1);
+            }
+            theta.push(p.tc_d);
+        }
+        theta.extend_from_slice(offsets);
+        theta.extend_from_slice(jitters);
+        theta.extend((0..self.trend).map(|k| trend.get(k).copied().unwrap_or(0.0)));
+        theta
+    }
+
+    /// Natural scale of each θ entry: about the size of a 1σ change for a typical data
+    /// set, used to condition the optimiser and size finite-difference steps.
+    pub fn scales(&self, set: &RvSet) -> Vec<f64> {
+        let span = set.baseline_d().max(1.0);
+        let mut errs = set.err_mps.clone();
+        errs.sort_by(f64::total_cmp);
+        let sigma = errs[errs.len() / 2].max(1e-3);
+        let years = span / crate::model::DAYS_PER_YEAR;
+        self.roles()
+            .into_iter()
+            .map(|role| match role {
+                Role::Period(i) => 0.01 * self.planets[i].period_d.powi(2) / span,
+                Role::K(_) | Role::Offset(_) | Role::Jitter(_) => sigma,
+                Role::ECosW(_) | Role::ESinW(_) => 0.05,
+                Role::Tc(i) => 0.01 * self.planets[i].period_d,
+                Role::Trend(k) => sigma / years.powi(k as i32),
+            })
+            .collect()
+    }
+
+    /// Short name of each θ entry, e.g. `b.period_d`, `offset.HARBOR`.
+    pub fn names(&self, instruments: &[String]) -> Vec<String> {
+        self.roles()
+            .into_iter()
+            .map(|role| match role {
+                Role::Period(i) => format!("{}.period_d", self.planets[i].label),
+                Role::K(i) => format!("{}.k_mps", self.planets[i].label),
+                Role::ECosW(i) => format!("{}.ecosw", self.planets[i].label),
+                Role::ESinW(i) => format!("{}.esinw", self.planets[i].label),
+                Role::Tc(i) => format!("{}.tc_d", self.planets[i].label),
+                Role::Offset(k) => format!("offset_mps.{}", instruments[k]),
+                Role::Jitter(k) => format!("jitter_mps.{}", instruments[k]),
+                Role::Trend(k) => format!("trend_mps_per_yr{k}"),
+            })
+            .collect()
+    }
+}

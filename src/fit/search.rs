@@ -1,0 +1,130 @@
+//! Iterative signal search: periodogram of the residuals, strongest peak, joint refit of
+//! all signals, until the strongest peak's false-alarm probability is above the threshold.
+
+use super::{Fit, FitError, FitOptions, PlanetSpec, fit};
+use crate::data::RvSet;
+use crate::periodogram::{self, Grid, Peak, Periodogram};
+
+/// How many signals the search adds.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum SignalCount {
+    /// Add signals while the strongest residual peak has FAP below the threshold, at
+    /// most this many in all (known planets included).
+    UpTo(usize),
+    /// Exactly this many signals in all, whatever their FAP.
+    Exactly(usize),
+}
+
+/// Settings of the search.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SearchSettings {
+    /// Shortest period searched, days.
+    pub period_min_d: f64,
+    /// Longest period searched, days (default: the data's time span).
+    pub period_max_d: Option<f64>,
+    /// Frequency step = 1/(oversample × span).
+    pub oversample: f64,
+    /// FAP below which a peak counts as a signal.
+    pub fap_threshold: f64,
+    /// How many signals.
+    pub count: SignalCount,
+    /// Model options of each fit.
+    pub options: FitOptions,
+}
+
+/// One round of the search.
+#[derive(Clone, Debug)]
+pub struct SearchStep {
+    /// Periodogram of the residuals of the fit so far.
+    pub periodogram: Periodogram,
+    /// Its strongest peak, if any.
+    pub peak: Option<Peak>,
+    /// Whether that peak was added as a signal.
+    pub accepted: bool,
+}
+
+/// Result of the search: the final joint fit and each round's periodogram.
+#[derive(Clone, Debug)]
+pub struct Search {
+    /// Final joint fit of all signals.
+    pub fit: Fit,
+    /// Rounds in order (the first is the periodogram of the data after the known planets).
+    pub steps: Vec<SearchStep>,
+}
+
+/// Label for a new signal: the first of b, c, d, … not in use.
+pub fn next_label(used: &[PlanetSpec]) -> String {
+    (b'b'..=b'z')
+        .map(|c| (c as char).to_string())
+        .find(|l| used.iter().all(|p| &p.label != l))
+        .unwrap_or_else(|| format!("s{}", used.len() + 1))
+}
+
+/// Searches for signals beyond the `known` planets and fits all of them jointly.
+///
+/// # Errors
+/// [`FitError`] from the periodogram (too few points, zero baseline, bad range) or the fit.
+pub fn search(set: &RvSet, known: &[PlanetSpec], settings: &SearchSettings) -> Result<Search, FitError> {
+    let span = set.baseline_d();
+    let pmax = settings.period_max_d.unwrap_or(span);
+    let fmin = 1.0 / pmax;
+    let fmax = 1.0 / settings.period_min_d;
+    let grid = Grid::with_oversampling(fmin, fmax, span, settings.oversample)?;
+    let mut planets = known.to_vec();
+    let mut current = fit(set, &planets, &settings.options)?;
+    let mut steps = Vec::new();
+    let (limit, forced) = match settings.count {
+        SignalCount::UpTo(n) => (n, false),
+        SignalCount::Exactly(n) => (n, true),
+    };
+    loop {
+        let residual = residual_set(set, &current);
+        let pg = periodogram::compute(&residual, &current.params.jitters_mps, &grid)?;
+        let peak = pg.peaks(1, 0.0).into_iter().next();
+        let wanted = planets.len() < limit;
+        let accepted = wanted && peak.is_some_and(|p| forced || p.fap < settings.fap_threshold);
+        steps.push(SearchStep {
+            periodogram: pg,
+            peak,
+            accepted,
+        });
+        let (true, Some(peak)) = (accepted, peak) else {
+            break;
+        };
+        let sine = periodogram::sinusoid_at(&residual, &current.params.jitters_mps, peak.frequency)?;
+        planets.push(PlanetSpec {
+            period_d: peak.period,
+            fix_period: false,
+            k_mps: sine.amplitude_mps(),
+            tc_d: sine.conjunction_d(),
+            ecc_vector: (0.0, 0.0),
+            period_prior: None,
+            tc_prior: None,
+            label: next_label(&planets),
+        });
+        // Start the known signals where the last fit left them.
+        for (i, spec) in planets.iter_mut().enumerate().take(current.planets.len()) {
+            let [p, k, ec, es, tc] = current.layout.planet_elements(&current.theta, i);
+            spec.period_d = p;
+            spec.k_mps = k;
+            spec.ecc_vector = (ec, es);
+            spec.tc_d = tc;
+        }
+        current = fit(set, &planets, &settings.options)?;
+    }
+    Ok(Search {
+        fit: current,
+        steps,
+    })
+}
+
+/// The data with the fitted planets and trend removed (offsets are refitted by the
+/// periodogram).
+fn residual_set(set: &RvSet, fit: &Fit) -> RvSet {
+    let mut r = set.clone();
+    for i in 0..set.len() {
+        let t = set.time_d[i];
+        r.rv_mps[i] -= fit.params.planets_rv(t) + fit.params.trend_rv(t);
+    }
+    r
+}

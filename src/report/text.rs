@@ -1,0 +1,125 @@
+//! The human-readable summary printed after a fit or run.
+
+use std::fmt::Write;
+
+use crate::pipeline::Analysis;
+use crate::summary::Summary;
+
+/// `value ± err` (or `value +plus/−minus` when asymmetric), rounded so that the larger
+/// error keeps two significant digits (common practice); exact values print plainly.
+pub fn format_summary(s: &Summary) -> String {
+    let err = s.minus.max(s.plus);
+    if !(err > 0.0) || !err.is_finite() {
+        return format!("{}", round_sig(s.value, 7));
+    }
+    let decimals = (1 - err.log10().floor() as i32).max(0) as usize;
+    if (s.minus - s.plus).abs() <= 0.05 * err {
+        format!("{:.*} ± {:.*}", decimals, s.value, decimals, err)
+    } else {
+        format!("{:.*} +{:.*}/-{:.*}", decimals, s.value, decimals, s.plus, decimals, s.minus)
+    }
+}
+
+/// `x` with `digits` significant digits.
+fn round_sig(x: f64, digits: i32) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let scale = 10f64.powi(digits - 1 - x.abs().log10().floor() as i32);
+    (x * scale).round() / scale
+}
+
+/// The summary of an analysis, several lines of plain text.
+pub fn summary_text(a: &Analysis) -> String {
+    let fit = &a.search.fit;
+    let mut s = String::new();
+    let _ = writeln!(s, "heft — {}", a.name);
+    let _ = writeln!(
+        s,
+        "data: {} points from {} instrument(s) over {:.1} d (reference epoch BJD_TDB {})",
+        a.set.len(),
+        a.set.n_instruments(),
+        a.set.baseline_d(),
+        a.set.epoch_bjd
+    );
+    let _ = writeln!(s, "\nsignal search (GLS of residuals, Baluev FAP):");
+    for step in &a.search.steps {
+        if let Some(p) = step.peak {
+            let _ = writeln!(
+                s,
+                "  peak at {:>10.4} d  power {:.3}  FAP {:.2e}  {}",
+                p.period,
+                p.power,
+                p.fap,
+                if step.accepted { "→ fitted" } else { "→ stop" }
+            );
+        }
+    }
+    let _ = writeln!(s, "\nplanets (maximum likelihood; ± from the curvature):");
+    for (p, d) in fit.planets.iter().zip(&a.derived) {
+        let _ = writeln!(
+            s,
+            "  {}: P = {} d, K = {} m/s, e = {}, ω = {}°, Tc = {} BJD_TDB",
+            p.label,
+            format_summary(&p.period_d),
+            format_summary(&p.k_mps),
+            format_summary(&p.ecc),
+            format_summary(&p.omega_deg),
+            format_summary(&p.tc_d),
+        );
+        if let Some(d) = d {
+            for line in d.summary_lines() {
+                let _ = writeln!(s, "     {line}");
+            }
+        }
+    }
+    let _ = writeln!(s, "\ninstruments:");
+    for inst in &fit.instruments {
+        let _ = writeln!(
+            s,
+            "  {:<16} {:>4} pts  offset {} m/s  jitter {} m/s  rms {:.2} m/s",
+            inst.name,
+            inst.n_points,
+            format_summary(&inst.offset_mps),
+            format_summary(&inst.jitter_mps),
+            inst.rms_mps
+        );
+    }
+    let units = ["m/s/yr", "m/s/yr²"];
+    for (t, unit) in fit.trend.iter().zip(units) {
+        let _ = writeln!(s, "trend: {} {unit}", format_summary(t));
+    }
+    let _ = writeln!(
+        s,
+        "\nln L = {:.2}, BIC = {:.2}, AIC = {:.2}, {} points, {} free parameters",
+        fit.log_likelihood,
+        fit.bic(),
+        fit.aic(),
+        fit.n_points,
+        fit.n_params
+    );
+    for w in a.set.warnings.iter().chain(&fit.warnings) {
+        let _ = writeln!(s, "warning: {w}");
+    }
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Two significant digits in the error, value rounded to match (common practice).
+    #[test]
+    fn rounds_to_the_uncertainty() {
+        assert_eq!(format_summary(&Summary::symmetric(12.3456, 0.0234)), "12.346 ± 0.023");
+        assert_eq!(format_summary(&Summary::symmetric(1234.4, 56.0)), "1234 ± 56");
+        let asym = Summary {
+            value: 5.0,
+            minus: 0.5,
+            plus: 1.2,
+            upper95: None,
+            upper99: None,
+        };
+        assert_eq!(format_summary(&asym), "5.0 +1.2/-0.5");
+    }
+}
