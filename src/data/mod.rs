@@ -2,11 +2,39 @@
 //!
 //! Entry point: [`load`] turns a list of [`DataSpec`] (file, instrument, unit, time
 //! standard) into one [`RvSet`], sorted by time, RVs in m/s, times in days from a common
-//! reference epoch.
+//! reference epoch. The accepted table formats are described in `docs/input-formats.md`.
+//!
+//! # Examples
+//! ```no_run
+//! use heft::data::{load, DataSpec, RvUnit};
+//!
+//! let specs = [
+//!     DataSpec::new("rv/harps.csv"),
+//!     DataSpec {
+//!         unit: RvUnit::KilometresPerSecond,
+//!         time: "BJD-2450000".parse()?,
+//!         ..DataSpec::new("rv/coralie.txt")
+//!     },
+//! ];
+//! let set = load(&specs)?;
+//! for warning in &set.warnings {
+//!     eprintln!("warning: {warning}");
+//! }
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
 
+use std::fmt;
 use std::path::PathBuf;
+use std::str::FromStr;
 
+mod error;
+mod load;
+mod read;
 mod time;
+mod validate;
+
+pub use error::{DataError, DataErrorKind};
+pub use load::load;
 pub use time::{TimeScale, TimeStandard, TimeStandardError};
 
 /// Unit of the RV and RV-error columns of an input file.
@@ -31,6 +59,38 @@ impl RvUnit {
     }
 }
 
+impl fmt::Display for RvUnit {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            RvUnit::MetresPerSecond => "m/s",
+            RvUnit::KilometresPerSecond => "km/s",
+        })
+    }
+}
+
+/// Why an RV unit name was not understood.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("unknown RV unit '{0}': use m/s or km/s")]
+pub struct RvUnitError(pub String);
+
+impl FromStr for RvUnit {
+    type Err = RvUnitError;
+
+    /// Parses `m/s` or `km/s` (case-insensitive; `mps`, `kms`, `m s-1`, `km s-1` too).
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        let key: String = s
+            .chars()
+            .filter(|c| !c.is_whitespace())
+            .collect::<String>()
+            .to_ascii_lowercase();
+        match key.as_str() {
+            "m/s" | "mps" | "ms-1" | "ms^-1" => Ok(RvUnit::MetresPerSecond),
+            "km/s" | "kms" | "kmps" | "kms-1" | "kms^-1" => Ok(RvUnit::KilometresPerSecond),
+            _ => Err(RvUnitError(s.to_string())),
+        }
+    }
+}
+
 /// One input file and how to read it.
 #[derive(Clone, Debug, PartialEq)]
 pub struct DataSpec {
@@ -43,6 +103,19 @@ pub struct DataSpec {
     pub unit: RvUnit,
     /// Time standard of the `time` column.
     pub time: TimeStandard,
+}
+
+impl DataSpec {
+    /// A file with the defaults: instrument from the file (its `instrument` column, else
+    /// its stem), RVs in m/s, times in BJD_TDB.
+    pub fn new(path: impl Into<PathBuf>) -> DataSpec {
+        DataSpec {
+            path: path.into(),
+            instrument: None,
+            unit: RvUnit::default(),
+            time: TimeStandard::default(),
+        }
+    }
 }
 
 /// Where a measurement came from: index into [`RvSet::files`] and the 1-based line number
@@ -126,7 +199,12 @@ impl RvSet {
             err_mps,
             instrument,
             instruments,
-            origin: (0..n).map(|i| Origin { file: 0, row: i + 1 }).collect(),
+            origin: (0..n)
+                .map(|i| Origin {
+                    file: 0,
+                    row: i + 1,
+                })
+                .collect(),
             files: vec![PathBuf::from(source)],
             indicators: Vec::new(),
             warnings: Vec::new(),
@@ -181,5 +259,21 @@ impl RvSet {
                 .collect(),
             warnings: self.warnings.clone(),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rv_unit_round_trip() {
+        for unit in [RvUnit::MetresPerSecond, RvUnit::KilometresPerSecond] {
+            assert_eq!(unit.to_string().parse::<RvUnit>(), Ok(unit));
+        }
+        assert_eq!("KM/S".parse(), Ok(RvUnit::KilometresPerSecond));
+        assert_eq!("m s-1".parse(), Ok(RvUnit::MetresPerSecond));
+        let e = "cm/s".parse::<RvUnit>().unwrap_err();
+        assert_eq!(e.to_string(), "unknown RV unit 'cm/s': use m/s or km/s");
     }
 }
