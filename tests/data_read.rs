@@ -47,7 +47,7 @@ fn assert_error(result: Result<RvSet, DataError>, path: &Path, row: Option<usize
 }
 
 const CSV: &str = "\
-# HARPS RVs of a made-up star
+# LOOM RVs of a made-up star
 time,rv,rv_err
 2456000.10,1.5,0.5
 2456003.20,-2.0,0.6
@@ -60,10 +60,10 @@ time,rv,rv_err
 #[test]
 fn csv_with_header() {
     let dir = TempDir::new().unwrap();
-    let path = write(&dir, "harps.csv", CSV);
+    let path = write(&dir, "loom.csv", CSV);
     let set = load_one(&path).unwrap();
     assert_eq!(set.len(), 3);
-    assert_eq!(set.instruments, vec!["harps"]);
+    assert_eq!(set.instruments, vec!["loom"]);
     assert_eq!(set.files, vec![path.clone()]);
     assert!(set.warnings.is_empty(), "{:?}", set.warnings);
     // Sorted by time, origins keep the file's line numbers (comment and blank counted).
@@ -84,12 +84,12 @@ fn tsv_with_header_and_synonyms() {
     let dir = TempDir::new().unwrap();
     let path = write(
         &dir,
-        "espresso.tsv",
-        "BJD\tvrad\tsvrad\n2456000.1\t1.5\t0.5\n2456001.1\t2.5\t0.5\n",
+        "kestrel.tsv",
+        "BJD\trv\trv_err\n2456000.1\t1.5\t0.5\n2456001.1\t2.5\t0.5\n",
     );
     let set = load_one(&path).unwrap();
     assert_eq!(set.rv_mps, vec![1.5, 2.5]);
-    assert_eq!(set.instruments, vec!["espresso"]);
+    assert_eq!(set.instruments, vec!["kestrel"]);
 }
 
 #[test]
@@ -97,34 +97,20 @@ fn whitespace_headerless() {
     let dir = TempDir::new().unwrap();
     let path = write(
         &dir,
-        "hires.txt",
+        "wren.txt",
         "# no header\n  2456000.1   1.5  0.5\n2456001.1\t\t2.5 0.5\n",
     );
     let set = load_one(&path).unwrap();
     assert_eq!(set.rv_mps, vec![1.5, 2.5]);
     assert_eq!(set.origin[1].row, 3);
-    assert_eq!(set.instruments, vec!["hires"]);
-}
-
-#[test]
-fn rdb_style_dash_line_is_skipped() {
-    let dir = TempDir::new().unwrap();
-    let path = write(
-        &dir,
-        "dace.rdb",
-        "rjd\tvrad\tsvrad\n---\t----\t-----\n56000.1\t1.5\t0.5\n56001.1\t2.5\t0.5\n",
-    );
-    let set = load(&[with_time(&path, "BJD-2400000")]).unwrap();
-    assert_eq!(set.len(), 2);
-    assert_eq!(set.origin[0].row, 3);
-    assert_eq!(set.epoch_bjd, 2_456_001.0);
+    assert_eq!(set.instruments, vec!["wren"]);
 }
 
 #[test]
 fn parquet_file() {
     use polars::prelude::*;
     let dir = TempDir::new().unwrap();
-    let path = dir.path().join("carmenes.parquet");
+    let path = dir.path().join("heron.parquet");
     let mut df = df!(
         "time" => [2456001.5, 2456000.5, 2456002.5, 2456003.5],
         "rv" => [3.0, 1.0, 2.0, 4.0],
@@ -177,13 +163,13 @@ fn instrument_column_with_header() {
         &dir,
         "all.csv",
         "time,rv,rv_err,instrument\n\
-         2456000.1,1,1,\"HARPS-N\"\n\
-         2456000.2,2,1,HIRES\n\
-         2456000.3,3,1,HARPS-N\n\
-         2456000.4,4,1,HIRES\n",
+         2456000.1,1,1,\"LOOM-N\"\n\
+         2456000.2,2,1,WREN\n\
+         2456000.3,3,1,LOOM-N\n\
+         2456000.4,4,1,WREN\n",
     );
     let set = load_one(&path).unwrap();
-    assert_eq!(set.instruments, vec!["HARPS-N", "HIRES"]);
+    assert_eq!(set.instruments, vec!["LOOM-N", "WREN"]);
     assert_eq!(set.instrument, vec![0, 1, 0, 1]);
 }
 
@@ -193,10 +179,10 @@ fn instrument_column_headerless() {
     let path = write(
         &dir,
         "mixed.txt",
-        "2456000.1 1 1 HIRES\n2456000.2 2 1 PFS\n2456000.3 3 1 PFS\n2456000.4 4 1 HIRES\n",
+        "2456000.1 1 1 WREN\n2456000.2 2 1 TEAL\n2456000.3 3 1 TEAL\n2456000.4 4 1 WREN\n",
     );
     let set = load_one(&path).unwrap();
-    assert_eq!(set.instruments, vec!["HIRES", "PFS"]);
+    assert_eq!(set.instruments, vec!["WREN", "TEAL"]);
     assert_eq!(set.instrument, vec![0, 1, 1, 0]);
 }
 
@@ -256,16 +242,16 @@ fn spec_instrument_overrides_column_and_stem() {
     );
     let specs = [
         DataSpec {
-            instrument: Some("HARPS".into()),
+            instrument: Some("LOOM".into()),
             ..spec(&a)
         },
         DataSpec {
-            instrument: Some("HARPS".into()),
+            instrument: Some("LOOM".into()),
             ..spec(&b)
         },
     ];
     let set = load(&specs).unwrap();
-    assert_eq!(set.instruments, vec!["HARPS"]);
+    assert_eq!(set.instruments, vec!["LOOM"]);
     assert_eq!(set.instrument, vec![0; 4]);
 }
 
@@ -287,7 +273,7 @@ fn km_per_s_is_converted() {
     let dir = TempDir::new().unwrap();
     let path = write(
         &dir,
-        "coralie.csv",
+        "sedge.csv",
         "time,rv,rv_err\n2456000.1,-12.3456,0.004\n2456001.1,-12.3401,0.005\n",
     );
     let set = load(&[DataSpec {
@@ -366,19 +352,19 @@ fn multi_file_merge() {
     let dir = TempDir::new().unwrap();
     let a = write(
         &dir,
-        "HARPS.csv",
+        "LOOM.csv",
         "time,rv,rv_err,fwhm\n2456000.1,1,1,7.0\n2456002.1,2,1,7.1\n",
     );
-    let b = write(&dir, "HIRES.txt", "bjd rv err\n6001.1 3 2\n6003.1 4 2\n");
+    let b = write(&dir, "WREN.txt", "bjd rv err\n6001.1 3 2\n6003.1 4 2\n");
     let c = write(
         &dir,
-        "HARPS-2.csv",
-        "time,rv,rv_err,instrument,bis\n2456004.1,5,1,HARPS,0.1\n",
+        "LOOM-2.csv",
+        "time,rv,rv_err,instrument,bis\n2456004.1,5,1,LOOM,0.1\n",
     );
     let specs = [spec(&a), with_time(&b, "BJD-2450000"), spec(&c)];
     let set = load(&specs).unwrap();
     assert_eq!(set.files, vec![a.clone(), b.clone(), c.clone()]);
-    assert_eq!(set.instruments, vec!["HARPS", "HIRES"]);
+    assert_eq!(set.instruments, vec!["LOOM", "WREN"]);
     assert_eq!(set.rv_mps, vec![1.0, 3.0, 2.0, 4.0, 5.0]);
     assert_eq!(set.instrument, vec![0, 1, 0, 1, 0]);
     let files: Vec<usize> = set.origin.iter().map(|o| o.file).collect();
@@ -701,7 +687,7 @@ fn m_per_s_declared_as_km_per_s() {
     let dir = TempDir::new().unwrap();
     let path = write(
         &dir,
-        "harps.csv",
+        "loom.csv",
         "time,rv,rv_err\n2456000.1,12.3,1.2\n2456001.1,-4.5,1.5\n",
     );
     let result = load(&[DataSpec {
@@ -731,7 +717,7 @@ fn km_per_s_declared_as_m_per_s() {
     let dir = TempDir::new().unwrap();
     let path = write(
         &dir,
-        "coralie.csv",
+        "sedge.csv",
         "time,rv,rv_err\n2456000.1,-12.345,0.004\n2456001.1,-12.341,0.005\n2456002.1,-12.350,0.004\n",
     );
     assert_error(

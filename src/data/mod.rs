@@ -9,11 +9,11 @@
 //! use heft::data::{load, DataSpec, RvUnit};
 //!
 //! let specs = [
-//!     DataSpec::new("rv/harps.csv"),
+//!     DataSpec::new("rv/loom.csv"),
 //!     DataSpec {
 //!         unit: RvUnit::KilometresPerSecond,
 //!         time: "BJD-2450000".parse()?,
-//!         ..DataSpec::new("rv/coralie.txt")
+//!         ..DataSpec::new("rv/sedge.txt")
 //!     },
 //! ];
 //! let set = load(&specs)?;

@@ -106,15 +106,6 @@ pub(crate) fn read_text(path: &Path, text: &str) -> Result<Table, DataError> {
     let named = is_header(&first);
     let names: Vec<String> = if named {
         lines.next();
-        // A rule of dashes under the header (as in .rdb files) is skipped.
-        if let Some((_, line)) = lines.peek()
-            && split(format, line).is_ok_and(|f| {
-                f.iter()
-                    .all(|s| !s.is_empty() && s.chars().all(|c| c == '-'))
-            })
-        {
-            lines.next();
-        }
         first
     } else {
         if !(3..=4).contains(&first.len()) {
@@ -363,8 +354,8 @@ mod tests {
     #[test]
     fn csv_quotes_and_spaces() {
         assert_eq!(
-            split_csv(r#" 1.5 , "HARPS, new" ,"say ""hi""",,x"#).unwrap(),
-            vec!["1.5", "HARPS, new", r#"say "hi""#, "", "x"]
+            split_csv(r#" 1.5 , "LOOM, new" ,"say ""hi""",,x"#).unwrap(),
+            vec!["1.5", "LOOM, new", r#"say "hi""#, "", "x"]
         );
         assert!(split_csv(r#"1,"open"#).is_err());
     }
@@ -373,11 +364,11 @@ mod tests {
     fn header_detection() {
         let f = |s: &str| s.split(',').map(str::to_string).collect::<Vec<_>>();
         assert!(is_header(&f("time,rv,rv_err")));
-        assert!(is_header(&f("bjd,vrad,svrad,fwhm")));
+        assert!(is_header(&f("bjd,rv,rv_err,fwhm")));
         assert!(!is_header(&f("2456000.5,1.0,0.5")));
-        assert!(!is_header(&f("2456000.5,1.0,0.5,HARPS")));
+        assert!(!is_header(&f("2456000.5,1.0,0.5,LOOM")));
         assert!(!is_header(&f("2456000.5,abc,0.5")));
-        assert!(!is_header(&f("2456000.5,abc,0.5,HARPS")));
+        assert!(!is_header(&f("2456000.5,abc,0.5,LOOM")));
         assert!(!is_header(&f("x2456000.5,1,0.5")));
     }
 
@@ -414,14 +405,14 @@ mod tests {
 
     #[test]
     fn headerless_names() {
-        let t = read_text(Path::new("x.csv"), "1,2,3,HARPS\n4,5,6,\"HARPS N\"\n").unwrap();
+        let t = read_text(Path::new("x.csv"), "1,2,3,LOOM\n4,5,6,\"LOOM N\"\n").unwrap();
         assert!(!t.named);
         assert_eq!(t.rows, vec![1, 2]);
         let names: Vec<_> = t.columns.iter().map(|c| c.name.as_str()).collect();
         assert_eq!(names, HEADERLESS);
         assert_eq!(
             text(&t.columns[3].cells),
-            vec![Some("HARPS"), Some("HARPS N")]
+            vec![Some("LOOM"), Some("LOOM N")]
         );
     }
 

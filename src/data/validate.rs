@@ -14,10 +14,10 @@ use super::{DataSpec, RvUnit, TimeStandard};
 /// Header names (lower case, spaces and dashes read as `_`) accepted for the time column.
 pub(crate) const TIME_NAMES: &[&str] = &["time", "t", "bjd", "bjd_tdb", "jd", "hjd", "mjd", "rjd"];
 /// Header names accepted for the RV column.
-pub(crate) const RV_NAMES: &[&str] = &["rv", "vrad", "radvel"];
+pub(crate) const RV_NAMES: &[&str] = &["rv", "radial_velocity"];
 /// Header names accepted for the RV-uncertainty column.
 pub(crate) const ERR_NAMES: &[&str] = &[
-    "rv_err", "rv_error", "err_rv", "e_rv", "sigma_rv", "svrad", "err", "error",
+    "rv_err", "rv_error", "err_rv", "e_rv", "sigma_rv", "err", "error",
 ];
 /// Header names accepted for the instrument column.
 pub(crate) const INSTRUMENT_NAMES: &[&str] = &["instrument", "inst", "instr"];
@@ -431,8 +431,8 @@ mod tests {
     fn roles_from_synonyms() {
         assert_eq!(role_of("BJD"), Some(Role::Time));
         assert_eq!(role_of(" RV err "), Some(Role::Err));
-        assert_eq!(role_of("svrad"), Some(Role::Err));
-        assert_eq!(role_of("vrad"), Some(Role::Rv));
+        assert_eq!(role_of("rv_err"), Some(Role::Err));
+        assert_eq!(role_of("rv"), Some(Role::Rv));
         assert_eq!(role_of("Instrument"), Some(Role::Instrument));
         assert_eq!(role_of("fwhm"), None);
     }
@@ -440,13 +440,13 @@ mod tests {
     #[test]
     fn reads_columns_and_indicators() {
         let d = run(
-            "obs/harps.csv",
-            "BJD,vrad,svrad,fwhm,note\n2456000.1,1.5,0.5,7.1,a\n2456001.1,-2.0,0.6,,b\n",
+            "obs/loom.csv",
+            "BJD,rv,rv_err,fwhm,note\n2456000.1,1.5,0.5,7.1,a\n2456001.1,-2.0,0.6,,b\n",
         )
         .unwrap();
         assert_eq!(d.time, vec![2456000.1, 2456001.1]);
         assert_eq!(d.rv, vec![1.5, -2.0]);
-        assert_eq!(d.instrument, vec!["harps", "harps"]);
+        assert_eq!(d.instrument, vec!["loom", "loom"]);
         assert_eq!(d.indicators.len(), 1);
         assert_eq!(d.indicators[0].0, "fwhm");
         assert!(d.indicators[0].1[1].is_nan());

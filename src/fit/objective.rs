@@ -68,7 +68,7 @@ pub fn hessian(f: &dyn Fn(&[f64]) -> f64, x: &[f64], h: &[f64]) -> nalgebra::DMa
     let f0 = f(x);
     let mut m = nalgebra::DMatrix::zeros(n, n);
     let mut xp = x.to_vec();
-    let mut eval = |xp: &mut Vec<f64>, moves: &[(usize, f64)]| {
+    let eval = |xp: &mut Vec<f64>, moves: &[(usize, f64)]| {
         for &(i, d) in moves {
             xp[i] += d;
         }

@@ -191,9 +191,10 @@ impl<'a> Prepared<'a> {
 
     /// Power at grid frequencies `start .. start + out.len()`.
     pub(super) fn block(&self, grid: &Grid, start: usize, out: &mut [f64]) {
-        let raw = self.accumulate(grid.frequency(start), grid.df, out.len());
+        let len = out.len();
+        let raw = self.accumulate(grid.frequency(start), grid.df, len);
         for (j, p) in out.iter_mut().enumerate() {
-            *p = self.sums(&raw, j, out.len()).power();
+            *p = self.sums(&raw, j, len).power();
         }
     }
 }
