@@ -4,7 +4,7 @@
 //! [`data`] (RV tables → [`data::RvSet`]), [`periodogram`] (generalised Lomb–Scargle,
 //! false-alarm probabilities, iterative signal search), [`orbit`] (Kepler's equation and
 //! the Keplerian RV curve), [`model`] (planets + offsets + jitter + trend, likelihood),
-//! [`fit`] (maximum likelihood), [`derive`] (K → mass, radius, density) and [`report`]
+//! [`fit`] (maximum likelihood), [`derive`](mod@derive) (K → mass, radius, density) and [`report`]
 //! (results.json and the printed summary). [`pipeline`] chains them for one target file.
 //!
 //! # Units and signs
@@ -17,6 +17,8 @@
 //!   `v = K [cos(nu + omega) + e cos omega] + offset + trend` and the conjunction (transit)
 //!   time has `nu = pi/2 - omega`.
 #![deny(missing_docs)]
+// `!(x > 0.0)` is deliberate throughout: it rejects NaN along with non-positive values.
+#![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 pub mod data;
 pub mod derive;

@@ -7,7 +7,7 @@ use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
 
 use crate::data::{self, DataError, RvSet};
-use crate::derive::{self, OrbitDraws, PlanetDerived, StarDraws, TransitDraws};
+use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, TransitDraws};
 use crate::fit::{self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount};
 use crate::periodogram;
 use crate::target::{Settings, Star, Target, Transit};
@@ -21,6 +21,9 @@ pub enum PipelineError {
     /// The fit or search failed.
     #[error(transparent)]
     Fit(#[from] FitError),
+    /// Stellar or transit values could not be turned into draws, or a derivation failed.
+    #[error("deriving planet properties: {0}")]
+    Derive(#[from] DeriveError),
 }
 
 /// A constraint or bound the analysis used, recorded in results.json.
@@ -132,7 +135,10 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
             priors.push(Prior {
                 parameter: format!("{}.period_d", t.label),
                 kind: "fixed",
-                detail: format!("{} d (transit period given without uncertainty)", t.period_d),
+                detail: format!(
+                    "{} d (transit period given without uncertainty)",
+                    t.period_d
+                ),
             });
         } else {
             spec.period_prior = Some((t.period_d, t.period_err_d));
@@ -172,24 +178,25 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
         None => vec![None; search.fit.planets.len()],
         Some(star) => {
             let elements = search.fit.element_draws(req.draws, &mut rng);
-            let star_draws = StarDraws::sample(star, req.draws, &mut rng);
-            elements
-                .iter()
-                .zip(&search.fit.planets)
-                .map(|(el, planet)| {
-                    let orbit = OrbitDraws {
-                        period_d: el.iter().map(|x| x.0).collect(),
-                        k_mps: el.iter().map(|x| x.1).collect(),
-                        ecc: el.iter().map(|x| x.2).collect(),
-                    };
-                    let transit = req
-                        .transits
-                        .iter()
-                        .find(|t| t.label == planet.label)
-                        .map(|t| TransitDraws::sample(t, req.draws, &mut rng));
-                    Some(derive::derive_planet(&orbit, &star_draws, transit.as_ref()))
-                })
-                .collect()
+            let star_draws = StarDraws::sample(star, req.draws, &mut rng)?;
+            let mut out = Vec::with_capacity(elements.len());
+            for (el, planet) in elements.iter().zip(&search.fit.planets) {
+                let orbit = OrbitDraws {
+                    period_d: el.iter().map(|x| x.0).collect(),
+                    k_mps: el.iter().map(|x| x.1).collect(),
+                    ecc: el.iter().map(|x| x.2).collect(),
+                };
+                let transit = match req.transits.iter().find(|t| t.label == planet.label) {
+                    Some(t) => Some(TransitDraws::sample(t, req.draws, &mut rng)?),
+                    None => None,
+                };
+                out.push(Some(derive::derive_planet(
+                    &orbit,
+                    &star_draws,
+                    transit.as_ref(),
+                )?));
+            }
+            out
         }
     };
     Ok(Analysis {

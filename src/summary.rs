@@ -74,7 +74,11 @@ impl Summary {
     /// the circular mean direction, and the errors are the 15.87/84.13 percentiles of the
     /// draws unwrapped around it. `None` when no finite draw is left.
     pub fn from_angle_draws_deg(draws_rad: &[f64]) -> Option<Summary> {
-        let finite: Vec<f64> = draws_rad.iter().copied().filter(|x| x.is_finite()).collect();
+        let finite: Vec<f64> = draws_rad
+            .iter()
+            .copied()
+            .filter(|x| x.is_finite())
+            .collect();
         if finite.is_empty() {
             return None;
         }

@@ -253,9 +253,9 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
     let time_standard = |key: &str, s: &Option<String>| -> Result<TimeStandard, TargetError> {
         match s {
             None => Ok(TimeStandard::default()),
-            Some(s) => s.parse().map_err(|e: crate::data::TimeStandardError| {
-                invalid(key, e.to_string())
-            }),
+            Some(s) => s
+                .parse()
+                .map_err(|e: crate::data::TimeStandardError| invalid(key, e.to_string())),
         }
     };
 
@@ -275,7 +275,10 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
     }
 
     if raw.data.is_empty() {
-        return Err(invalid("data", "at least one [[data]] file is needed".into()));
+        return Err(invalid(
+            "data",
+            "at least one [[data]] file is needed".into(),
+        ));
     }
     let base = path.parent().unwrap_or(Path::new("."));
     let data = raw
@@ -321,7 +324,10 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         };
         let rp_rs = match (t.rp_rs, t.depth_ppm) {
             (Some(_), Some(_)) => {
-                return Err(invalid(&key("depth_ppm"), "give rp_rs or depth_ppm, not both".into()));
+                return Err(invalid(
+                    &key("depth_ppm"),
+                    "give rp_rs or depth_ppm, not both".into(),
+                ));
             }
             (Some(r), None) => pair("rp_rs", Some(r), t.rp_rs_err)?,
             // Depth = (Rp/R*)^2 for a uniform disc (limb darkening ignored).
@@ -332,13 +338,19 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         if let Some((r, _)) = rp_rs
             && r >= 1.0
         {
-            return Err(invalid(&key("rp_rs"), format!("radius ratio {r} must be below 1")));
+            return Err(invalid(
+                &key("rp_rs"),
+                format!("radius ratio {r} must be below 1"),
+            ));
         }
         let incl = pair("incl_deg", t.incl_deg, t.incl_err_deg)?;
         if let Some((i_deg, _)) = incl
             && i_deg > 90.0
         {
-            return Err(invalid(&key("incl_deg"), format!("{i_deg} must be in (0, 90]")));
+            return Err(invalid(
+                &key("incl_deg"),
+                format!("{i_deg} must be in (0, 90]"),
+            ));
         }
         transits.push(Transit {
             label: t.label,
@@ -372,7 +384,10 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         }
     }
     if !(s.oversample.is_finite() && s.oversample >= 1.0) {
-        return Err(invalid("settings.oversample", format!("must be at least 1, got {}", s.oversample)));
+        return Err(invalid(
+            "settings.oversample",
+            format!("must be at least 1, got {}", s.oversample),
+        ));
     }
     if !(s.fap_threshold > 0.0 && s.fap_threshold < 1.0) {
         return Err(invalid(
@@ -381,10 +396,16 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         ));
     }
     if s.trend > 2 {
-        return Err(invalid("settings.trend", format!("order must be 0, 1 or 2, got {}", s.trend)));
+        return Err(invalid(
+            "settings.trend",
+            format!("order must be 0, 1 or 2, got {}", s.trend),
+        ));
     }
     if s.draws < 100 {
-        return Err(invalid("settings.draws", format!("need at least 100, got {}", s.draws)));
+        return Err(invalid(
+            "settings.draws",
+            format!("need at least 100, got {}", s.draws),
+        ));
     }
 
     Ok(Target {

@@ -16,7 +16,9 @@ use nalgebra::DMatrix;
 use serde_json::Value;
 
 fn reference(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/twobody").join(name)
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/reference/twobody")
+        .join(name)
 }
 
 fn truth() -> Value {
@@ -90,7 +92,11 @@ fn check_dataset(name: &str, files: &[&str], trend: usize) {
     let result = fit::search(&set, &[], &settings).unwrap();
     let fit = &result.fit;
     let true_planets = ds["planets"].as_array().unwrap();
-    assert_eq!(fit.planets.len(), true_planets.len(), "{name}: number of signals found");
+    assert_eq!(
+        fit.planets.len(),
+        true_planets.len(),
+        "{name}: number of signals found"
+    );
 
     // Truth in θ form, for the Fisher σ, in the fit's planet order.
     let mut specs = Vec::new();
@@ -114,11 +120,19 @@ fn check_dataset(name: &str, files: &[&str], trend: usize) {
 
         let within = |what: &str, got: f64, want: f64, sigma: f64| {
             let z = (got - want) / sigma;
-            eprintln!("{name} {}: {what} fit {got:.6} truth {want:.6} σ {sigma:.3e} z {z:+.2}", est.label);
+            eprintln!(
+                "{name} {}: {what} fit {got:.6} truth {want:.6} σ {sigma:.3e} z {z:+.2}",
+                est.label
+            );
             assert!(z.abs() < 3.0, "{name}: {what} off by {z:.2} σ");
         };
         within("P", est.period_d.value, p, est.period_d.plus);
-        within("K", est.k_mps.value, tp["k_mps"].as_f64().unwrap(), est.k_mps.plus);
+        within(
+            "K",
+            est.k_mps.value,
+            tp["k_mps"].as_f64().unwrap(),
+            est.k_mps.plus,
+        );
         within("e", est.ecc.value, e, est.ecc.plus);
         let dw = heft::summary::wrap_pi(est.omega_deg.value.to_radians() - w).to_degrees();
         within("omega", dw, 0.0, est.omega_deg.plus);
@@ -136,10 +150,20 @@ fn check_dataset(name: &str, files: &[&str], trend: usize) {
         });
     }
     let insts = ds["instruments"].as_array().unwrap();
-    let offsets: Vec<f64> = insts.iter().map(|i| i["offset_mps"].as_f64().unwrap()).collect();
-    let jitters: Vec<f64> = insts.iter().map(|i| i["jitter_mps"].as_f64().unwrap()).collect();
+    let offsets: Vec<f64> = insts
+        .iter()
+        .map(|i| i["offset_mps"].as_f64().unwrap())
+        .collect();
+    let jitters: Vec<f64> = insts
+        .iter()
+        .map(|i| i["jitter_mps"].as_f64().unwrap())
+        .collect();
     let layout = Layout::new(specs, OrbitShape::Eccentric, set.n_instruments(), trend);
-    let theta = layout.initial(&offsets, &jitters, &[ds["trend_mps_per_yr"].as_f64().unwrap()]);
+    let theta = layout.initial(
+        &offsets,
+        &jitters,
+        &[ds["trend_mps_per_yr"].as_f64().unwrap()],
+    );
     let expected = expected_sigmas(&set, &layout, &theta, &jitters);
     for (i, est) in fit.planets.iter().enumerate() {
         for (role, stated, what) in [
@@ -149,14 +173,23 @@ fn check_dataset(name: &str, files: &[&str], trend: usize) {
         ] {
             let want = expected[layout.index(role).unwrap()];
             let ratio = stated / want;
-            eprintln!("{name} {}: σ({what}) stated {stated:.3e} Fisher {want:.3e} ratio {ratio:.2}", est.label);
-            assert!((1.0 / 1.5..=1.5).contains(&ratio), "{name}: σ({what}) ratio {ratio}");
+            eprintln!(
+                "{name} {}: σ({what}) stated {stated:.3e} Fisher {want:.3e} ratio {ratio:.2}",
+                est.label
+            );
+            assert!(
+                (1.0 / 1.5..=1.5).contains(&ratio),
+                "{name}: σ({what}) ratio {ratio}"
+            );
         }
     }
     if trend == 1 {
         let want = ds["trend_mps_per_yr"].as_f64().unwrap();
         let z = (fit.trend[0].value - want) / fit.trend[0].plus;
-        eprintln!("{name}: trend fit {:.3} truth {want} z {z:+.2}", fit.trend[0].value);
+        eprintln!(
+            "{name}: trend fit {:.3} truth {want} z {z:+.2}",
+            fit.trend[0].value
+        );
         assert!(z.abs() < 3.0, "{name}: trend off by {z:.2} σ");
     }
 }
@@ -168,5 +201,9 @@ fn one_planet_one_instrument() {
 
 #[test]
 fn two_planets_two_instruments_with_trend() {
-    check_dataset("two_planets", &["two_planets_a.csv", "two_planets_b.csv"], 1);
+    check_dataset(
+        "two_planets",
+        &["two_planets_a.csv", "two_planets_b.csv"],
+        1,
+    );
 }

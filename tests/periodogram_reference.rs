@@ -10,7 +10,9 @@ use heft::periodogram::{self, Grid};
 use serde_json::Value;
 
 fn reference(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference").join(name)
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/reference")
+        .join(name)
 }
 
 fn fixture() -> Value {
@@ -58,15 +60,27 @@ fn baluev_fap_matches_astropy() {
     let set = gls_data();
     let fx = fixture();
     let fap = &fx["fap"];
-    let grid = Grid::new(fx["grid"]["fmin"].as_f64().unwrap(), fap["fmax"].as_f64().unwrap(), 10).unwrap();
+    let grid = Grid::new(
+        fx["grid"]["fmin"].as_f64().unwrap(),
+        fap["fmax"].as_f64().unwrap(),
+        10,
+    )
+    .unwrap();
     let pg = periodogram::compute(&set, &[], &grid).unwrap();
     let t_eff = fap["t_eff_d"].as_f64().unwrap();
-    assert!((pg.t_eff_d - t_eff).abs() < 1e-9 * t_eff, "T_eff {} vs {t_eff}", pg.t_eff_d);
+    assert!(
+        (pg.t_eff_d - t_eff).abs() < 1e-9 * t_eff,
+        "T_eff {} vs {t_eff}",
+        pg.t_eff_d
+    );
     for level in fap["levels"].as_array().unwrap() {
         let z = level["power"].as_f64().unwrap();
         let want = level["fap_baluev"].as_f64().unwrap();
         let got = pg.fap(z);
-        assert!((got - want).abs() <= 0.01 * want.max(1e-300), "Z = {z}: {got} vs astropy {want}");
+        assert!(
+            (got - want).abs() <= 0.01 * want.max(1e-300),
+            "Z = {z}: {got} vs astropy {want}"
+        );
     }
 }
 
@@ -77,7 +91,12 @@ fn check_cases_a_and_b() {
     let fx = fixture();
     for case in fx["check_cases_section1"].as_array().unwrap() {
         let col = |k: &str| -> Vec<f64> {
-            case[k].as_array().unwrap().iter().map(|v| v.as_f64().unwrap()).collect()
+            case[k]
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_f64().unwrap())
+                .collect()
         };
         let (t, y, dy) = (col("t"), col("y"), col("dy"));
         let n = t.len();
@@ -87,10 +106,17 @@ fn check_cases_a_and_b() {
             let want = check["power"].as_f64().unwrap();
             let s = periodogram::sinusoid_at(&set, &[], f).unwrap();
             let id = &case["case"];
-            assert!((s.power - want).abs() < 1e-9, "case {id}: p({f}) = {} vs {want}", s.power);
+            assert!(
+                (s.power - want).abs() < 1e-9,
+                "case {id}: p({f}) = {} vs {want}",
+                s.power
+            );
             let close = |got: f64, key: &str| {
                 let want = check[key].as_f64().unwrap();
-                assert!((got - want).abs() < 1e-6 * want.abs().max(1.0), "case {id}: {key} {got} vs {want}");
+                assert!(
+                    (got - want).abs() < 1e-6 * want.abs().max(1.0),
+                    "case {id}: {key} {got} vs {want}"
+                );
             };
             close(s.cos_mps, "a_cos");
             close(s.sin_mps, "b_sin");

@@ -48,7 +48,9 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
     let defaults = Settings::default();
     let star = match args.mstar_msun {
         Some(m) if !(m.is_finite() && m > 0.0) => {
-            return Err(Failure::Input(anyhow::anyhow!("--mstar-msun must be positive, got {m}")));
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--mstar-msun must be positive, got {m}"
+            )));
         }
         Some(m) => Some(Star {
             mass_msun: m,
@@ -62,7 +64,9 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
         None => None,
     };
     if let Some(p) = args.periods.iter().find(|p| !(p.is_finite() && **p > 0.0)) {
-        return Err(Failure::Input(anyhow::anyhow!("--period must be positive, got {p}")));
+        return Err(Failure::Input(anyhow::anyhow!(
+            "--period must be positive, got {p}"
+        )));
     }
     let count = match args.planets {
         Some(n) => SignalCount::Exactly(n.max(args.periods.len())),
@@ -90,7 +94,11 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
             fap_threshold: defaults.fap_threshold,
             count,
             options: FitOptions {
-                shape: if args.circular { OrbitShape::Circular } else { OrbitShape::Eccentric },
+                shape: if args.circular {
+                    OrbitShape::Circular
+                } else {
+                    OrbitShape::Eccentric
+                },
                 trend: usize::from(args.trend),
                 ..FitOptions::default()
             },

@@ -45,7 +45,9 @@ pub struct PeriodogramArgs {
 /// The grid the arguments ask for, automatic where left out.
 fn grid(args: &PeriodogramArgs, set: &RvSet) -> Result<Grid, Failure> {
     let span = set.baseline_d();
-    let fmin = args.fmin.unwrap_or(if span > 0.0 { 1.0 / span } else { 0.0 });
+    let fmin = args
+        .fmin
+        .unwrap_or(if span > 0.0 { 1.0 / span } else { 0.0 });
     let fmax = args.fmax.unwrap_or(AUTO_FMAX.max(2.0 * fmin));
     let result = match args.nfreq {
         Some(n) => Grid::new(fmin, fmax, n),
@@ -82,7 +84,11 @@ pub fn run(args: &PeriodogramArgs) -> Result<ExitCode, Failure> {
             "fap_method": "Baluev 2008, for the grid's fmax",
             "peaks": peaks,
         });
-        writeln!(out, "{}", serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))?)
+        writeln!(
+            out,
+            "{}",
+            serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))?
+        )
     } else {
         let mut text = format!(
             "GLS periodogram of {} points ({} instruments), {} frequencies from {:.6} to {:.6} 1/d\n\n  {:>14} {:>12} {:>8} {:>10}\n",

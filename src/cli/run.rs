@@ -28,7 +28,9 @@ pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
     let target = target::load(&args.target).map_err(|e| Failure::Input(e.into()))?;
     if let Some(out) = &args.out
         && out.exists()
-        && std::fs::read_dir(out).map(|mut d| d.next().is_some()).unwrap_or(true)
+        && std::fs::read_dir(out)
+            .map(|mut d| d.next().is_some())
+            .unwrap_or(true)
     {
         return Err(Failure::Input(anyhow::anyhow!(
             "{} exists and is not empty; choose a new folder",

@@ -72,12 +72,18 @@ pub enum Role {
 
 impl Layout {
     /// Lays out θ for these planets and model options.
-    pub fn new(planets: Vec<PlanetSpec>, shape: OrbitShape, n_instruments: usize, trend: usize) -> Layout {
+    pub fn new(
+        planets: Vec<PlanetSpec>,
+        shape: OrbitShape,
+        n_instruments: usize,
+        trend: usize,
+    ) -> Layout {
         let mut planet_start = Vec::with_capacity(planets.len());
         let mut at = 0;
         for p in &planets {
             planet_start.push(at);
-            at += usize::from(!p.fix_period) + 2 + if shape == OrbitShape::Eccentric { 2 } else { 0 };
+            at +=
+                usize::from(!p.fix_period) + 2 + if shape == OrbitShape::Eccentric { 2 } else { 0 };
         }
         Layout {
             planets,
@@ -132,7 +138,11 @@ impl Layout {
             at += 1;
             theta[at - 1]
         };
-        let period = if spec.fix_period { spec.period_d } else { next() };
+        let period = if spec.fix_period {
+            spec.period_d
+        } else {
+            next()
+        };
         let k = next();
         let (ec, es) = if self.shape == OrbitShape::Eccentric {
             (next(), next())
@@ -156,13 +166,9 @@ impl Layout {
     /// Model parameters from θ, with each eccentricity capped at `max_ecc` (the caller
     /// penalises the excess). `None` for a non-positive period or non-finite values.
     pub fn params(&self, theta: &[f64], max_ecc: f64) -> Option<Params> {
-        let mut planets = Vec::with_capacity(self.planets.len());
-        for i in 0..self.planets.len() {
-            let [p, k, ec, es, tc] = self.planet_elements(theta, i);
-            let e = ec.hypot(es);
-            let omega = if e > 0.0 { es.atan2(ec) } else { 0.0 };
-            planets.push(Orbit::new(p, k, e.min(max_ecc), omega, tc).ok()?);
-        }
+        let planets = (0..self.planets.len())
+            .map(|i| self.orbit(theta, i, max_ecc))
+            .collect::<Option<Vec<Orbit>>>()?;
         let (offsets_mps, jitters_mps, trend) = self.noise_and_trend(theta);
         if theta.iter().any(|x| !x.is_finite()) {
             return None;
@@ -173,6 +179,25 @@ impl Layout {
             jitters_mps,
             trend,
         })
+    }
+
+    /// Planet `i`'s orbit from θ, eccentricity capped at `max_ecc`; `None` when the
+    /// elements are invalid (P ≤ 0, non-finite values).
+    pub fn orbit(&self, theta: &[f64], i: usize, max_ecc: f64) -> Option<Orbit> {
+        let [p, k, ec, es, tc] = self.planet_elements(theta, i);
+        let e = ec.hypot(es);
+        let omega = if e > 0.0 { es.atan2(ec) } else { 0.0 };
+        Orbit::new(p, k, e.min(max_ecc), omega, tc).ok()
+    }
+
+    /// Index in θ of planet `i`'s first parameter and the number of its parameters.
+    pub fn planet_range(&self, i: usize) -> std::ops::Range<usize> {
+        let end = self
+            .planet_start
+            .get(i + 1)
+            .copied()
+            .unwrap_or(self.offsets_start);
+        self.planet_start[i]..end
     }
 
     /// θ from the planet specs' starting values and the given noise/trend values.

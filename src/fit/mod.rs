@@ -28,7 +28,9 @@ use objective::Objective;
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum FitError {
     /// More free parameters than data points.
-    #[error("{params} free parameters but only {points} points: fit fewer planets, a circular orbit or no trend")]
+    #[error(
+        "{params} free parameters but only {points} points: fit fewer planets, a circular orbit or no trend"
+    )]
     TooFewPoints {
         /// Free parameters.
         params: usize,
@@ -152,9 +154,14 @@ impl Fit {
         let dim = self.theta.len();
         (0..n)
             .map(|_| {
-                let z = DVector::from_fn(dim, |i, _| root[i] * rng.sample::<f64, _>(StandardNormal));
+                let z =
+                    DVector::from_fn(dim, |i, _| root[i] * rng.sample::<f64, _>(StandardNormal));
                 let d = &eig.eigenvectors * z;
-                self.theta.iter().zip(d.iter()).map(|(t, d)| t + d).collect()
+                self.theta
+                    .iter()
+                    .zip(d.iter())
+                    .map(|(t, d)| t + d)
+                    .collect()
             })
             .collect()
     }
@@ -179,8 +186,8 @@ impl Fit {
 
 /// Fits `planets` (starting values and constraints) with the given model options.
 ///
-/// Several starts are tried for eccentric orbits (the given one, and each planet in turn
-/// started at e = 0.3 with ω at 0°, 90°, 180°, 270°); the best is kept. A negative
+/// Several starts are tried for eccentric orbits (the given one, and each planet that
+/// starts circular, in turn, at e = 0.3 with ω at 0°, 90°, 180°, 270°); the best is kept. A negative
 /// semi-amplitude is turned into the equivalent positive one and refitted.
 ///
 /// # Errors
@@ -188,10 +195,18 @@ impl Fit {
 pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<Fit, FitError> {
     for p in planets {
         if !(p.period_d.is_finite() && p.period_d > 0.0) {
-            return Err(FitError::Start(format!("period {} d of planet {}", p.period_d, p.label)));
+            return Err(FitError::Start(format!(
+                "period {} d of planet {}",
+                p.period_d, p.label
+            )));
         }
     }
-    let layout = Layout::new(planets.to_vec(), options.shape, set.n_instruments(), options.trend);
+    let layout = Layout::new(
+        planets.to_vec(),
+        options.shape,
+        set.n_instruments(),
+        options.trend,
+    );
     if layout.len() >= set.len() {
         return Err(FitError::TooFewPoints {
             params: layout.len(),
@@ -207,8 +222,14 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
     let start = initial_theta(set, &layout);
     let mut starts = vec![start.clone()];
     if options.shape == OrbitShape::Eccentric {
-        for i in 0..planets.len() {
-            let ie = layout.index(Role::ECosW(i)).expect("eccentric layout has e cos w");
+        let fresh = planets
+            .iter()
+            .enumerate()
+            .filter(|(_, p)| p.ecc_vector == (0.0, 0.0));
+        for (i, _) in fresh {
+            let ie = layout
+                .index(Role::ECosW(i))
+                .expect("eccentric layout has e cos w");
             for q in 0..4 {
                 let w = f64::from(q) * std::f64::consts::FRAC_PI_2;
                 let mut s = start.clone();
@@ -334,10 +355,13 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
             let jk = layout.index(Role::K(i)).expect("K is always free");
             let (ecc, omega) = if options.shape == OrbitShape::Eccentric {
                 (
-                    Summary::symmetric(e, sigma_of(&|th| {
-                        let [_, _, c, s, _] = el(th);
-                        c.hypot(s)
-                    })),
+                    Summary::symmetric(
+                        e,
+                        sigma_of(&|th| {
+                            let [_, _, c, s, _] = el(th);
+                            c.hypot(s)
+                        }),
+                    ),
                     Summary::symmetric(
                         w.to_degrees().rem_euclid(360.0),
                         sigma_of(&|th| {
@@ -376,13 +400,20 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
                 .filter(|&i| set.instrument[i] == k)
                 .map(|i| residuals[i])
                 .collect();
-            let jo = layout.index(Role::Offset(k)).expect("offsets are always free");
-            let js = layout.index(Role::Jitter(k)).expect("jitters are always free");
+            let jo = layout
+                .index(Role::Offset(k))
+                .expect("offsets are always free");
+            let js = layout
+                .index(Role::Jitter(k))
+                .expect("jitters are always free");
             InstrumentEstimate {
                 name: set.instruments[k].clone(),
                 n_points: r.len(),
                 offset_mps: at(jo),
-                jitter_mps: Summary::symmetric(theta[js].abs(), covariance[(js, js)].max(0.0).sqrt()),
+                jitter_mps: Summary::symmetric(
+                    theta[js].abs(),
+                    covariance[(js, js)].max(0.0).sqrt(),
+                ),
                 rms_mps: (r.iter().map(|x| x * x).sum::<f64>() / r.len().max(1) as f64).sqrt(),
             }
         })

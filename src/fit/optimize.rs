@@ -7,9 +7,9 @@ use argmin::core::{CostFunction, Error, Executor, Gradient, State};
 use argmin::solver::linesearch::MoreThuenteLineSearch;
 use argmin::solver::quasinewton::LBFGS;
 
-use super::objective::{Objective, gradient};
+use super::objective::Objective;
 
-/// Step of the finite-difference gradient in scaled units.
+/// Step of the forward differences of planet curves, in scaled units.
 const GRAD_STEP: f64 = 1e-6;
 
 /// θ = origin + u × scale.
@@ -52,8 +52,10 @@ impl Gradient for Scaled<'_> {
     type Param = Vec<f64>;
     type Gradient = Vec<f64>;
     fn gradient(&self, u: &Self::Param) -> Result<Vec<f64>, Error> {
-        let h = vec![GRAD_STEP; u.len()];
-        Ok(gradient(&|x: &[f64]| self.eval(x), u, &h))
+        let theta = unscale(u, &self.origin, &self.scale);
+        let steps: Vec<f64> = self.scale.iter().map(|s| GRAD_STEP * s).collect();
+        let g = self.objective.gradient(&theta, &steps);
+        Ok(g.iter().zip(&self.scale).map(|(g, s)| g * s).collect())
     }
 }
 
@@ -61,7 +63,12 @@ impl Gradient for Scaled<'_> {
 /// Returns the best θ seen and its objective value. A line-search failure ends a round
 /// early but never loses the best point found; rounds repeat (at most `rounds`) from the
 /// best point until the value improves by less than 1e-7.
-pub fn minimise(objective: &Objective, start: &[f64], scale: &[f64], rounds: usize) -> (Vec<f64>, f64) {
+pub fn minimise(
+    objective: &Objective,
+    start: &[f64],
+    scale: &[f64],
+    rounds: usize,
+) -> (Vec<f64>, f64) {
     let mut theta = start.to_vec();
     let mut value = objective.value(&theta);
     for _ in 0..rounds {
@@ -73,7 +80,7 @@ pub fn minimise(objective: &Objective, start: &[f64], scale: &[f64], rounds: usi
             best: &best,
         };
         let solver = LBFGS::new(MoreThuenteLineSearch::new(), 10)
-            .with_tolerance_grad(1e-7)
+            .with_tolerance_grad(1e-5)
             .and_then(|s| s.with_tolerance_cost(1e-12));
         let Ok(solver) = solver else { break };
         let outcome = Executor::new(problem, solver)

@@ -64,7 +64,11 @@ pub fn next_label(used: &[PlanetSpec]) -> String {
 ///
 /// # Errors
 /// [`FitError`] from the periodogram (too few points, zero baseline, bad range) or the fit.
-pub fn search(set: &RvSet, known: &[PlanetSpec], settings: &SearchSettings) -> Result<Search, FitError> {
+pub fn search(
+    set: &RvSet,
+    known: &[PlanetSpec],
+    settings: &SearchSettings,
+) -> Result<Search, FitError> {
     let span = set.baseline_d();
     let pmax = settings.period_max_d.unwrap_or(span);
     let fmin = 1.0 / pmax;
@@ -91,7 +95,8 @@ pub fn search(set: &RvSet, known: &[PlanetSpec], settings: &SearchSettings) -> R
         let (true, Some(peak)) = (accepted, peak) else {
             break;
         };
-        let sine = periodogram::sinusoid_at(&residual, &current.params.jitters_mps, peak.frequency)?;
+        let sine =
+            periodogram::sinusoid_at(&residual, &current.params.jitters_mps, peak.frequency)?;
         planets.push(PlanetSpec {
             period_d: peak.period,
             fix_period: false,

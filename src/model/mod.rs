@@ -78,7 +78,12 @@ pub fn point_log_likelihood(r: f64, sigma: f64, s: f64) -> f64 {
 /// Gaussian log-likelihood with per-instrument jitter,
 /// `ln L = -1/2 Σ [r²/(σ² + s²) + ln(2π(σ² + s²))]` (jitter as a fitted parameter:
 /// Baluev 2009, MNRAS 393, 969).
-pub fn log_likelihood(residuals: &[f64], err: &[f64], instrument: &[usize], jitters: &[f64]) -> f64 {
+pub fn log_likelihood(
+    residuals: &[f64],
+    err: &[f64],
+    instrument: &[usize],
+    jitters: &[f64],
+) -> f64 {
     residuals
         .iter()
         .zip(err)

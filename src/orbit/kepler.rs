@@ -42,7 +42,10 @@ fn e_minus_sin_e(x: f64) -> f64 {
 /// Debug builds assert `0 <= ecc < 1`; callers validate eccentricities when building
 /// an [`crate::orbit::Orbit`].
 pub fn eccentric_anomaly(mean_anom: f64, ecc: f64) -> f64 {
-    debug_assert!((0.0..1.0).contains(&ecc), "eccentricity {ecc} outside [0, 1)");
+    debug_assert!(
+        (0.0..1.0).contains(&ecc),
+        "eccentricity {ecc} outside [0, 1)"
+    );
     if ecc == 0.0 || !mean_anom.is_finite() {
         return mean_anom;
     }
@@ -73,7 +76,11 @@ fn reduce(mean_anom: f64) -> (f64, f64, f64) {
     let two_pi = 2.0 * PI;
     let base = (mean_anom / two_pi).round() * two_pi;
     let r = mean_anom - base; // in [-π, π]
-    if r < 0.0 { (-r, -1.0, base) } else { (r, 1.0, base) }
+    if r < 0.0 {
+        (-r, -1.0, base)
+    } else {
+        (r, 1.0, base)
+    }
 }
 
 /// Eccentric anomaly by bisection on the same residual as [`eccentric_anomaly`]: slow
@@ -124,8 +131,18 @@ mod tests {
             (0.99, 1.0_f64.to_radians(), 24.725822_f64.to_radians(), 1e-6),
             (0.99, 0.2, 1.066997365282, 1e-12),
             (0.99, 2.0_f64.to_radians(), 32.361007_f64.to_radians(), 1e-6),
-            (0.99, 33.0_f64.to_radians(), 89.722155_f64.to_radians(), 1e-6),
-            (0.75, 70.0_f64.to_radians(), 110.302_f64.to_radians(), 1e-3_f64.to_radians()),
+            (
+                0.99,
+                33.0_f64.to_radians(),
+                89.722155_f64.to_radians(),
+                1e-6,
+            ),
+            (
+                0.75,
+                70.0_f64.to_radians(),
+                110.302_f64.to_radians(),
+                1e-3_f64.to_radians(),
+            ),
             (0.5, 5.0_f64.to_radians(), 9.950063_f64.to_radians(), 1e-6),
             (0.9, 5.0_f64.to_radians(), 33.344447_f64.to_radians(), 1e-6),
         ];

@@ -44,7 +44,10 @@ mod tests {
         assert!((t_eff - 102.327554).abs() < 1e-6);
         for (z, expect) in [(0.10, 0.5155930), (0.19, 6.320295e-3), (0.30, 7.212251e-6)] {
             let got = baluev_fap(z, 100, 1, 0.5, t_eff);
-            assert!(((got - expect) / expect).abs() < 1e-6, "z={z}: {got} vs {expect}");
+            assert!(
+                ((got - expect) / expect).abs() < 1e-6,
+                "z={z}: {got} vs {expect}"
+            );
         }
     }
 }

@@ -23,7 +23,9 @@ pub const MAX_GRID: usize = 50_000_000;
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum PeriodogramError {
     /// Too few points for the floating-mean sinusoid fit.
-    #[error("a periodogram needs at least {need} points (one offset per instrument plus 2), got {got}")]
+    #[error(
+        "a periodogram needs at least {need} points (one offset per instrument plus 2), got {got}"
+    )]
     TooFewPoints {
         /// Points needed.
         need: usize,
@@ -162,7 +164,11 @@ pub struct Peak {
 ///
 /// # Errors
 /// [`PeriodogramError`] when there are too few points or the times have no spread.
-pub fn compute(set: &RvSet, jitters_mps: &[f64], grid: &Grid) -> Result<Periodogram, PeriodogramError> {
+pub fn compute(
+    set: &RvSet,
+    jitters_mps: &[f64],
+    grid: &Grid,
+) -> Result<Periodogram, PeriodogramError> {
     let prep = gls::Prepared::new(set, jitters_mps)?;
     let mut power = vec![0.0; grid.n];
     power
@@ -181,16 +187,20 @@ pub fn compute(set: &RvSet, jitters_mps: &[f64], grid: &Grid) -> Result<Periodog
 impl Periodogram {
     /// Baluev (2008) false-alarm probability of power `z` over this grid's frequency range.
     pub fn fap(&self, z: f64) -> f64 {
-        baluev_fap(z, self.n_points, self.n_offsets, self.grid.fmax(), self.t_eff_d)
+        baluev_fap(
+            z,
+            self.n_points,
+            self.n_offsets,
+            self.grid.fmax(),
+            self.t_eff_d,
+        )
     }
 
     /// Up to `n` highest local maxima, highest first, at least `min_sep` (1/day) apart.
     pub fn peaks(&self, n: usize, min_sep: f64) -> Vec<Peak> {
         let p = &self.power;
         let mut idx: Vec<usize> = (0..p.len())
-            .filter(|&j| {
-                (j == 0 || p[j] >= p[j - 1]) && (j + 1 == p.len() || p[j] > p[j + 1])
-            })
+            .filter(|&j| (j == 0 || p[j] >= p[j - 1]) && (j + 1 == p.len() || p[j] > p[j + 1]))
             .collect();
         idx.sort_by(|&a, &b| p[b].total_cmp(&p[a]));
         let mut chosen: Vec<Peak> = Vec::new();

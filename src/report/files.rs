@@ -10,11 +10,18 @@ use std::path::{Path, PathBuf};
 /// # Errors
 /// Any I/O error; the temporary file is removed on failure.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> io::Result<()> {
-    let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
     let name = path
         .file_name()
         .ok_or_else(|| io::Error::new(io::ErrorKind::InvalidInput, "no file name"))?;
-    let tmp = dir.join(format!(".{}.tmp-{}", name.to_string_lossy(), std::process::id()));
+    let tmp = dir.join(format!(
+        ".{}.tmp-{}",
+        name.to_string_lossy(),
+        std::process::id()
+    ));
     let result = (|| {
         let mut f = fs::File::create(&tmp)?;
         f.write_all(bytes)?;
@@ -40,7 +47,10 @@ pub fn create_run_dir(out: Option<&Path>, target_file: &Path) -> io::Result<Path
         if dir.exists() && fs::read_dir(dir)?.next().is_some() {
             return Err(io::Error::new(
                 io::ErrorKind::AlreadyExists,
-                format!("{} exists and is not empty; choose a new folder", dir.display()),
+                format!(
+                    "{} exists and is not empty; choose a new folder",
+                    dir.display()
+                ),
             ));
         }
         fs::create_dir_all(dir)?;
@@ -54,7 +64,11 @@ pub fn create_run_dir(out: Option<&Path>, target_file: &Path) -> io::Result<Path
     fs::create_dir_all(&base)?;
     let stamp = chrono::Utc::now().format("%Y%m%dT%H%M%SZ").to_string();
     for n in 1.. {
-        let name = if n == 1 { stamp.clone() } else { format!("{stamp}-{n}") };
+        let name = if n == 1 {
+            stamp.clone()
+        } else {
+            format!("{stamp}-{n}")
+        };
         let dir = base.join(name);
         match fs::create_dir(&dir) {
             Ok(()) => return Ok(dir),

@@ -18,7 +18,11 @@ use crate::pipeline::Analysis;
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
-pub fn write_run(analysis: &Analysis, out: Option<&Path>, target_file: &Path) -> std::io::Result<PathBuf> {
+pub fn write_run(
+    analysis: &Analysis,
+    out: Option<&Path>,
+    target_file: &Path,
+) -> std::io::Result<PathBuf> {
     let dir = create_run_dir(out, target_file)?;
     let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;

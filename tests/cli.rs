@@ -1,0 +1,290 @@
+//! The command-line contract of design.md, run on the built binary in temporary folders.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+use serde_json::Value;
+
+fn heft(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_heft"))
+        .args(args)
+        .output()
+        .unwrap()
+}
+
+fn repo(p: &str) -> String {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join(p)
+        .display()
+        .to_string()
+}
+
+fn json_of(out: &Output) -> Value {
+    assert!(
+        out.status.success(),
+        "stderr: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+fn stderr(out: &Output) -> String {
+    String::from_utf8_lossy(&out.stderr).into_owned()
+}
+
+/// An estimated quantity is {value, minus, plus} (design.md).
+fn is_estimate(v: &Value) -> bool {
+    ["value", "minus", "plus"].iter().all(|k| v[k].is_number())
+}
+
+#[test]
+fn periodogram_table_is_the_requested_grid() {
+    let dir = tempfile::tempdir().unwrap();
+    let table = dir.path().join("pg.csv");
+    let out = heft(&[
+        "periodogram",
+        &repo("tests/reference/gls_data.csv"),
+        "--fmin",
+        "0.01",
+        "--fmax",
+        "0.5",
+        "--nfreq",
+        "50",
+        "--table",
+        table.to_str().unwrap(),
+        "--json",
+    ]);
+    let doc = json_of(&out);
+    let text = std::fs::read_to_string(&table).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("frequency,period,power"));
+    let rows: Vec<Vec<f64>> = lines
+        .map(|l| l.split(',').map(|x| x.parse().unwrap()).collect())
+        .collect();
+    assert_eq!(rows.len(), 50);
+    assert!((rows[0][0] - 0.01).abs() < 1e-12 && (rows[49][0] - 0.5).abs() < 1e-12);
+    assert!(
+        rows.iter()
+            .all(|r| (r[1] - 1.0 / r[0]).abs() < 1e-9 * r[1] && (0.0..=1.0).contains(&r[2]))
+    );
+    let peaks = doc["peaks"].as_array().unwrap();
+    assert!(!peaks.is_empty());
+    assert!(peaks.iter().all(|p| p["fap"].as_f64().unwrap() <= 1.0));
+}
+
+#[test]
+fn fit_json_has_the_contract_keys() {
+    let out = heft(&[
+        "fit",
+        &repo("tests/reference/twobody/two_planets_a.csv"),
+        &repo("tests/reference/twobody/two_planets_b.csv"),
+        "--mstar-msun",
+        "1.07",
+        "--mstar-err",
+        "0.05",
+        "--json",
+    ]);
+    let doc = json_of(&out);
+    assert_eq!(doc["schema"], "heft-results/1");
+    let planets = doc["planets"].as_array().unwrap();
+    assert_eq!(planets.len(), 2);
+    for p in planets {
+        for key in [
+            "period_d",
+            "k_mps",
+            "ecc",
+            "omega_deg",
+            "tc_d",
+            "tp_d",
+            "msini_mearth",
+        ] {
+            assert!(is_estimate(&p[key]), "planet key {key}: {}", p[key]);
+        }
+    }
+    let insts = doc["instruments"].as_array().unwrap();
+    // A file without an instrument column is one instrument named after its stem.
+    let names: Vec<&str> = insts.iter().map(|i| i["name"].as_str().unwrap()).collect();
+    assert_eq!(names, ["two_planets_a", "two_planets_b"]);
+    assert!(
+        insts
+            .iter()
+            .all(|i| is_estimate(&i["offset_mps"]) && is_estimate(&i["jitter_mps"]))
+    );
+    assert!(is_estimate(&doc["trend"]["trend_mps_per_yr"]));
+    for key in ["log_likelihood", "bic", "aic", "n_points", "n_params"] {
+        assert!(doc["fit"][key].is_number(), "fit.{key}");
+    }
+    assert!(doc["priors"].is_array());
+}
+
+#[test]
+fn fit_with_fixed_period_and_no_trend() {
+    let out = heft(&[
+        "fit",
+        &repo("tests/reference/twobody/one_planet.csv"),
+        "--period",
+        "12.3047",
+        "--fix-period",
+        "--planets",
+        "1",
+        "--trend",
+        "0",
+        "--circular",
+        "--json",
+    ]);
+    let doc = json_of(&out);
+    let p = &doc["planets"][0];
+    assert_eq!(p["period_d"]["value"].as_f64().unwrap(), 12.3047);
+    assert_eq!(p["period_d"]["plus"].as_f64().unwrap(), 0.0);
+    assert_eq!(p["ecc"]["value"].as_f64().unwrap(), 0.0);
+    assert!(doc["trend"].get("trend_mps_per_yr").is_none());
+}
+
+#[test]
+fn run_writes_a_new_folder_and_refuses_a_full_one() {
+    let dir = tempfile::tempdir().unwrap();
+    let out_dir = dir.path().join("run1");
+    let target = repo("data-demo/ostrel-12.toml");
+    let out = heft(&["run", &target, "--out", out_dir.to_str().unwrap(), "--json"]);
+    let doc = json_of(&out);
+    let on_disk: Value =
+        serde_json::from_str(&std::fs::read_to_string(out_dir.join("results.json")).unwrap())
+            .unwrap();
+    assert_eq!(doc, on_disk);
+    assert!(out_dir.join("summary.txt").exists());
+    let b = doc["planets"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["label"] == "b")
+        .expect("the transiting planet b");
+    for key in [
+        "mass_mearth",
+        "radius_rearth",
+        "density_gcc",
+        "msini_mearth",
+    ] {
+        assert!(is_estimate(&b[key]), "{key}");
+    }
+    assert!(b["class"].is_string());
+    let again = heft(&["run", &target, "--out", out_dir.to_str().unwrap()]);
+    assert_eq!(again.status.code(), Some(2));
+    assert!(stderr(&again).contains("not empty"));
+    let kept: Value =
+        serde_json::from_str(&std::fs::read_to_string(out_dir.join("results.json")).unwrap())
+            .unwrap();
+    assert_eq!(
+        kept, on_disk,
+        "an earlier result must survive a refused run"
+    );
+}
+
+fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+/// Each bad input gives exit 2 and a message naming the file, the row where there is one,
+/// and the problem; never a panic.
+#[test]
+fn bad_inputs_exit_2_with_a_clear_message() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let good_rows: String = (0..10)
+        .map(|i| {
+            format!(
+                "{},{},1.0\n",
+                2459000.0 + 3.1 * f64::from(i),
+                (f64::from(i)).sin()
+            )
+        })
+        .collect();
+    let cases: Vec<(Vec<String>, Vec<&str>)> = vec![
+        (
+            vec![d.join("missing.csv").display().to_string()],
+            vec!["missing.csv"],
+        ),
+        (
+            vec![
+                write(
+                    d,
+                    "neg.csv",
+                    &format!("time,rv,rv_err\n{good_rows}2459100.5,1.0,-0.5\n"),
+                )
+                .display()
+                .to_string(),
+            ],
+            vec!["neg.csv", "row 12", "rv_err"],
+        ),
+        (
+            vec![
+                write(
+                    d,
+                    "nan.csv",
+                    &format!("time,rv,rv_err\n{good_rows}2459100.5,nan,0.5\n"),
+                )
+                .display()
+                .to_string(),
+            ],
+            vec!["nan.csv", "row 12"],
+        ),
+        (
+            vec![
+                write(d, "mjd.csv", &format!("time,rv,rv_err\n{good_rows}"))
+                    .display()
+                    .to_string(),
+                "--time".into(),
+                "MJD".into(),
+            ],
+            vec!["mjd.csv"],
+        ),
+        (
+            vec![
+                write(
+                    d,
+                    "dup.csv",
+                    &format!("time,rv,rv_err\n{good_rows}2459000.0,0.0,1.0\n"),
+                )
+                .display()
+                .to_string(),
+            ],
+            vec!["dup.csv", "row 12"],
+        ),
+    ];
+    for (args, needles) in cases {
+        let mut full = vec!["fit".to_string()];
+        full.extend(args);
+        let refs: Vec<&str> = full.iter().map(String::as_str).collect();
+        let out = heft(&refs);
+        let msg = stderr(&out);
+        assert_eq!(out.status.code(), Some(2), "{refs:?}: {msg}");
+        assert!(!msg.contains("panicked"), "{msg}");
+        for n in needles {
+            assert!(msg.contains(n), "{refs:?}: message lacks '{n}': {msg}");
+        }
+    }
+    // A target file with an unknown key names it.
+    let target = write(
+        d,
+        "t.toml",
+        "name = \"x\"\nmistake = 1\n[star]\nmass_msun = 1.0\n[[data]]\nfile = \"a.csv\"\n",
+    );
+    let out = heft(&["run", target.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("mistake"), "{}", stderr(&out));
+    // Periodogram: inverted range.
+    let ok = write(d, "ok.csv", &format!("time,rv,rv_err\n{good_rows}"));
+    let out = heft(&[
+        "periodogram",
+        ok.to_str().unwrap(),
+        "--fmin",
+        "0.5",
+        "--fmax",
+        "0.1",
+        "--nfreq",
+        "10",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("fmax"), "{}", stderr(&out));
+}
