@@ -218,12 +218,6 @@ fn start_at(set: &RvSet, period_d: f64, label: &str) -> Result<PlanetSpec, FitEr
     let sine = periodogram::sinusoid_at(set, &[], 1.0 / period_d)?;
     Ok(PlanetSpec {
         period_d,
-        fix_period: false,
-        k_mps: sine.amplitude_mps(),
-        tc_d: sine.conjunction_d(),
-        ecc_vector: (0.0, 0.0),
-        period_prior: None,
-        tc_prior: None,
-        label: label.to_string(),
+        ..PlanetSpec::from_sinusoid(&sine, label)
     })
 }

@@ -9,6 +9,7 @@
 use crate::data::RvSet;
 use crate::model::Params;
 use crate::orbit::Orbit;
+use crate::periodogram::Sinusoid;
 use crate::target::OrbitShape;
 
 /// How one planet enters the fit.
@@ -30,6 +31,23 @@ pub struct PlanetSpec {
     pub tc_prior: Option<(f64, f64)>,
     /// Label shown in outputs (e.g. "b").
     pub label: String,
+}
+
+impl PlanetSpec {
+    /// A circular start at the period, amplitude and phase of a periodogram sinusoid,
+    /// free and unconstrained.
+    pub fn from_sinusoid(sine: &Sinusoid, label: &str) -> PlanetSpec {
+        PlanetSpec {
+            period_d: 1.0 / sine.frequency,
+            fix_period: false,
+            k_mps: sine.amplitude_mps(),
+            tc_d: sine.conjunction_d(),
+            ecc_vector: (0.0, 0.0),
+            period_prior: None,
+            tc_prior: None,
+            label: label.to_string(),
+        }
+    }
 }
 
 /// Position and kind of every free parameter.

@@ -97,16 +97,8 @@ pub fn search(
         };
         let sine =
             periodogram::sinusoid_at(&residual, &current.params.jitters_mps, peak.frequency)?;
-        planets.push(PlanetSpec {
-            period_d: peak.period,
-            fix_period: false,
-            k_mps: sine.amplitude_mps(),
-            tc_d: sine.conjunction_d(),
-            ecc_vector: (0.0, 0.0),
-            period_prior: None,
-            tc_prior: None,
-            label: next_label(&planets),
-        });
+        let label = next_label(&planets);
+        planets.push(PlanetSpec::from_sinusoid(&sine, &label));
         // Start the known signals where the last fit left them.
         for (i, spec) in planets.iter_mut().enumerate().take(current.planets.len()) {
             let [p, k, ec, es, tc] = current.layout.planet_elements(&current.theta, i);
