@@ -7,9 +7,14 @@ use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
 
 use crate::data::{self, DataError, RvSet};
+use crate::derive::profile::{DensityProfile, ProfileInputs, ProfileSettings, density_profile};
+use crate::derive::system::{
+    PairSpacing, TrendCompanion, hill_spacing, secular_acceleration_mps_per_yr, trend_companion,
+};
 use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, TransitDraws};
 use crate::fit::{self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount};
 use crate::periodogram;
+use crate::summary::Summary;
 use crate::target::{Settings, Star, Target, Transit};
 
 /// Why an analysis stopped.
@@ -58,6 +63,82 @@ pub struct Request<'a> {
     pub seed: u64,
     /// Monte Carlo draws for derived quantities.
     pub draws: usize,
+    /// Model choices of the density report.
+    pub profile: ProfileSettings,
+}
+
+/// System-level checks (design: one block per system in results.json).
+#[derive(Clone, Debug, Default, PartialEq, Serialize)]
+pub struct SystemReport {
+    /// Companion implied by the fitted linear trend.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub trend_companion: Option<TrendCompanion>,
+    /// The star's secular acceleration, m/s/yr, when distance and proper motion are given
+    /// (already part of any fitted trend).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub secular_acceleration_mps_per_yr: Option<f64>,
+    /// Spacing of adjacent planets (by period).
+    pub spacings: Vec<PairSpacing>,
+}
+
+/// Trend companion, secular acceleration and Hill spacings.
+fn system_report(
+    fit: &crate::fit::Fit,
+    set: &RvSet,
+    star: &Star,
+    derived: &[Option<PlanetDerived>],
+    orbits: &[OrbitDraws],
+) -> SystemReport {
+    let trend_companion = fit
+        .trend
+        .first()
+        .map(|t| trend_companion(*t, set.baseline_d(), star.mass_msun));
+    let secular_acceleration_mps_per_yr = match (star.distance_pc, star.pm_mas_per_yr) {
+        (Some(d), Some(pm)) => Some(secular_acceleration_mps_per_yr(d, pm)),
+        _ => None,
+    };
+    let mut order: Vec<usize> = (0..fit.planets.len()).collect();
+    order.sort_by(|&a, &b| {
+        fit.planets[a]
+            .period_d
+            .value
+            .total_cmp(&fit.planets[b].period_d.value)
+    });
+    let mut spacings = Vec::new();
+    for w in order.windows(2) {
+        let (Some(inner), Some(outer)) = (&derived[w[0]], &derived[w[1]]) else {
+            continue;
+        };
+        let (di, dout) = (&inner.draws, &outer.draws);
+        let mass = |d: &crate::derive::DerivedDraws| {
+            d.mass_mearth
+                .clone()
+                .unwrap_or_else(|| d.msini_mearth.clone())
+        };
+        let (mi, mo) = (mass(di), mass(dout));
+        let n = mi.len().min(mo.len());
+        let spacing: Vec<f64> = (0..n)
+            .map(|j| hill_spacing(di.a_au[j], dout.a_au[j], mi[j], mo[j], star.mass_msun))
+            .collect();
+        let (ei, eo) = (&orbits[w[0]].ecc, &orbits[w[1]].ecc);
+        let crossing = (0..n)
+            .filter(|&j| di.a_au[j] * (1.0 + ei[j]) > dout.a_au[j] * (1.0 - eo[j]))
+            .count() as f64
+            / n.max(1) as f64;
+        spacings.push(PairSpacing {
+            pair: (
+                fit.planets[w[0]].label.clone(),
+                fit.planets[w[1]].label.clone(),
+            ),
+            hill_spacing: Summary::from_draws(&spacing).unwrap_or(Summary::exact(f64::NAN)),
+            p_orbits_cross: crossing,
+        });
+    }
+    SystemReport {
+        trend_companion,
+        secular_acceleration_mps_per_yr,
+        spacings,
+    }
 }
 
 /// Everything a report needs.
@@ -71,6 +152,10 @@ pub struct Analysis {
     pub search: Search,
     /// Derived properties of each fitted planet (same order), when a star was given.
     pub derived: Vec<Option<PlanetDerived>>,
+    /// Density report of each planet with a mass and a radius (same order).
+    pub profiles: Vec<Option<DensityProfile>>,
+    /// System-level checks.
+    pub system: SystemReport,
     /// Constraints and bounds used.
     pub priors: Vec<Prior>,
     /// Seed used.
@@ -95,6 +180,15 @@ pub fn search_settings(s: &Settings) -> SearchSettings {
     }
 }
 
+/// Density-report settings from a target file's settings.
+pub fn profile_settings(s: &Settings) -> ProfileSettings {
+    ProfileSettings {
+        albedo: s.albedo,
+        escape_efficiency: s.escape_efficiency,
+        xuv_flux_wm2: s.xuv_flux_wm2,
+    }
+}
+
 /// Reads the target's data and analyses it with the target's settings.
 ///
 /// # Errors
@@ -111,6 +205,7 @@ pub fn run_target(target: &Target) -> Result<Analysis, PipelineError> {
         search: search_settings(&target.settings),
         seed: target.settings.seed,
         draws: target.settings.draws,
+        profile: profile_settings(&target.settings),
     })
 }
 
@@ -174,36 +269,51 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
     let search = fit::search(set, &known, &req.search)?;
 
     let mut rng = ChaCha8Rng::seed_from_u64(req.seed);
-    let derived = match req.star {
-        None => vec![None; search.fit.planets.len()],
-        Some(star) => {
-            let elements = search.fit.element_draws(req.draws, &mut rng);
-            let star_draws = StarDraws::sample(star, req.draws, &mut rng)?;
-            let mut out = Vec::with_capacity(elements.len());
-            for (el, planet) in elements.iter().zip(&search.fit.planets) {
-                let orbit = OrbitDraws {
-                    period_d: el.iter().map(|x| x.0).collect(),
-                    k_mps: el.iter().map(|x| x.1).collect(),
-                    ecc: el.iter().map(|x| x.2).collect(),
+    let mut derived = vec![None; search.fit.planets.len()];
+    let mut profiles = vec![None; search.fit.planets.len()];
+    let mut system = SystemReport::default();
+    let mut orbits = Vec::new();
+    if let Some(star) = req.star {
+        let elements = search.fit.element_draws(req.draws, &mut rng);
+        let star_draws = StarDraws::sample(star, req.draws, &mut rng)?;
+        for (i, (el, planet)) in elements.iter().zip(&search.fit.planets).enumerate() {
+            let orbit = OrbitDraws {
+                period_d: el.iter().map(|x| x.0).collect(),
+                k_mps: el.iter().map(|x| x.1).collect(),
+                ecc: el.iter().map(|x| x.2).collect(),
+            };
+            let transit = req.transits.iter().find(|t| t.label == planet.label);
+            let transit_draws = match transit {
+                Some(t) => Some(TransitDraws::sample(t, req.draws, &mut rng)?),
+                None => None,
+            };
+            let d = derive::derive_planet(&orbit, &star_draws, transit_draws.as_ref())?;
+            if let (Some(t), Some(td)) = (transit, &transit_draws)
+                && d.radius_rearth.is_some()
+            {
+                let inputs = ProfileInputs {
+                    planet: &d,
+                    orbit: &orbit,
+                    star_draws: &star_draws,
+                    transit_draws: td,
+                    star,
+                    transit: t,
+                    settings: req.profile,
                 };
-                let transit = match req.transits.iter().find(|t| t.label == planet.label) {
-                    Some(t) => Some(TransitDraws::sample(t, req.draws, &mut rng)?),
-                    None => None,
-                };
-                out.push(Some(derive::derive_planet(
-                    &orbit,
-                    &star_draws,
-                    transit.as_ref(),
-                )?));
+                profiles[i] = Some(density_profile(&inputs, &mut rng)?);
             }
-            out
+            derived[i] = Some(d);
+            orbits.push(orbit);
         }
-    };
+        system = system_report(&search.fit, set, star, &derived, &orbits);
+    }
     Ok(Analysis {
         name: req.name,
         set: req.set.clone(),
         search,
         derived,
+        profiles,
+        system,
         priors,
         seed: req.seed,
         draws: req.draws,

@@ -45,6 +45,10 @@ pub struct Star {
     pub teff_err_k: f64,
     /// Age, Gyr.
     pub age_gyr: Option<f64>,
+    /// Distance, parsecs (with the proper motion: the secular acceleration).
+    pub distance_pc: Option<f64>,
+    /// Total proper motion, milliarcseconds per year.
+    pub pm_mas_per_yr: Option<f64>,
 }
 
 /// A planet's transit constraints (times in the declared standard, converted on load).
@@ -108,6 +112,12 @@ pub struct Settings {
     /// Monte Carlo draws used to propagate uncertainties into derived quantities
     /// (default 20 000).
     pub draws: usize,
+    /// Bond albedo for equilibrium temperatures (default 0.3).
+    pub albedo: f64,
+    /// Heating efficiency of energy-limited escape (default 0.1).
+    pub escape_efficiency: f64,
+    /// XUV flux at each planet, W/m², overriding the estimate from the star's age.
+    pub xuv_flux_wm2: Option<f64>,
 }
 
 impl Default for Settings {
@@ -122,6 +132,9 @@ impl Default for Settings {
             orbit: OrbitShape::Eccentric,
             trend: 1,
             draws: 20_000,
+            albedo: crate::derive::atmosphere::DEFAULT_ALBEDO,
+            escape_efficiency: crate::derive::atmosphere::DEFAULT_ESCAPE_EFFICIENCY,
+            xuv_flux_wm2: None,
         }
     }
 }
@@ -270,8 +283,16 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         positive("star.teff_k", t)?;
     }
     non_negative("star.teff_err_k", star.teff_err_k)?;
-    if let Some(a) = star.age_gyr {
-        positive("star.age_gyr", a)?;
+    for (key, v) in [
+        ("star.age_gyr", star.age_gyr),
+        ("star.distance_pc", star.distance_pc),
+    ] {
+        if let Some(v) = v {
+            positive(key, v)?;
+        }
+    }
+    if let Some(pm) = star.pm_mas_per_yr {
+        non_negative("star.pm_mas_per_yr", pm)?;
     }
 
     if raw.data.is_empty() {
@@ -400,6 +421,21 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
             "settings.trend",
             format!("order must be 0, 1 or 2, got {}", s.trend),
         ));
+    }
+    if !(0.0..1.0).contains(&s.albedo) {
+        return Err(invalid(
+            "settings.albedo",
+            format!("must be in [0, 1), got {}", s.albedo),
+        ));
+    }
+    if !(s.escape_efficiency > 0.0 && s.escape_efficiency <= 1.0) {
+        return Err(invalid(
+            "settings.escape_efficiency",
+            format!("must be in (0, 1], got {}", s.escape_efficiency),
+        ));
+    }
+    if let Some(f) = s.xuv_flux_wm2 {
+        positive("settings.xuv_flux_wm2", f)?;
     }
     if s.draws < 100 {
         return Err(invalid(

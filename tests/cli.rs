@@ -167,6 +167,34 @@ fn run_writes_a_new_folder_and_refuses_a_full_one() {
         assert!(is_estimate(&b[key]), "{key}");
     }
     assert!(b["class"].is_string());
+    // The density report (issue: what the mass and radius say about the planet).
+    for key in [
+        "density_earth",
+        "teq_k",
+        "insolation_earth",
+        "jeans_lambda",
+        "envelope_fraction",
+        "gravity_direct_mps2",
+    ] {
+        assert!(is_estimate(&b[key]), "{key}: {}", b[key]);
+    }
+    let total: f64 = b["class_probabilities"]
+        .as_object()
+        .unwrap()
+        .values()
+        .map(|v| v.as_f64().unwrap())
+        .sum();
+    assert!(
+        (total - 1.0).abs() < 1e-9,
+        "class probabilities sum to {total}"
+    );
+    assert!(out_dir.join("density.md").exists());
+    let svg = std::fs::read_to_string(out_dir.join("mass_radius.svg")).unwrap();
+    assert_eq!(
+        svg.matches(r#"class="contour""#).count(),
+        2,
+        "one pair of contours for the one planet with a radius"
+    );
     let again = heft(&["run", &target, "--out", out_dir.to_str().unwrap()]);
     assert_eq!(again.status.code(), Some(2));
     assert!(stderr(&again).contains("not empty"));

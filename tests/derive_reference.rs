@@ -296,6 +296,8 @@ fn monte_carlo_density_error_matches_first_order_propagation() {
         teff_k: None,
         teff_err_k: 0.0,
         age_gyr: None,
+        distance_pc: None,
+        pm_mas_per_yr: None,
     };
     let star = StarDraws::sample(&star, n, &mut rng).unwrap();
     let radius =

@@ -60,6 +60,8 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
             teff_k: None,
             teff_err_k: 0.0,
             age_gyr: None,
+            distance_pc: None,
+            pm_mas_per_yr: None,
         }),
         None => None,
     };
@@ -105,6 +107,7 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
         },
         seed: args.seed,
         draws: defaults.draws,
+        profile: pipeline::profile_settings(&defaults),
     };
     let analysis = pipeline::analyse(request).map_err(|e| Failure::Input(e.into()))?;
     print_results(&analysis, args.json)

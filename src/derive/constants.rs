@@ -59,6 +59,17 @@ pub fn mearth_from_kg(kg: f64) -> f64 {
 /// Jupiter mass in Earth masses, (GM)J / (GM)⊕ ≈ 317.83.
 pub const MJUP_IN_MEARTH: f64 = GM_JUP / GM_EARTH;
 
+/// Solar-system planets for scale: name, mass (kg) and equatorial radius (km), from the
+/// JPL Solar System Dynamics "Planets and Pluto: physical characteristics" table
+/// (Neptune's radius from ESA's planet page; references.md §6).
+pub const SOLAR_SYSTEM_PLANETS: [(&str, f64, f64); 5] = [
+    ("Earth", 5.97237e24, 6378.1366),
+    ("Uranus", 86.8127e24, 25559.0),
+    ("Neptune", 102.43e24, 24764.0),
+    ("Saturn", 568.3174e24, 60268.0),
+    ("Jupiter", 1898.187e24, 71492.0),
+];
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -6,16 +6,24 @@
 //! - [`mass`]: exact semi-amplitude formula, the full mass function, Kepler's third law.
 //! - [`density`]: radius from Rp/R*, bulk density, gravity, escape velocity.
 //! - [`composition`]: the composition class and its documented thresholds.
+//! - [`atmosphere`]: equilibrium temperature, flux, Jeans parameter, energy-limited escape.
+//! - [`relations`]: Chen & Kipping (2017) and Lopez & Fortney (2014) mass–radius relations.
+//! - [`profile`]: the density report of a planet from draws.
+//! - [`system`]: companion implied by a trend, secular acceleration, Hill spacing.
 //! - [`draws`]: input draws ([`OrbitDraws`], [`StarDraws`], [`TransitDraws`]).
 //! - [`derive_planet`]: draws in, [`PlanetDerived`] (draws + summaries) out;
 //!   [`calculate`] is the `heft mass` calculator built on it.
 
+pub mod atmosphere;
 pub mod composition;
 pub mod constants;
 pub mod density;
 pub mod draws;
 pub mod mass;
 mod planet;
+pub mod profile;
+pub mod relations;
+pub mod system;
 
 pub use composition::CompositionClass;
 pub use draws::{

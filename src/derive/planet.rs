@@ -377,6 +377,8 @@ pub fn calculate(query: &MassQuery, draws: usize, seed: u64) -> Result<PlanetDer
         teff_k: None,
         teff_err_k: 0.0,
         age_gyr: None,
+        distance_pc: None,
+        pm_mas_per_yr: None,
     };
     let star = StarDraws::sample(&star, n, &mut rng)?;
     let radius = match query.radius {

@@ -29,13 +29,19 @@ pub fn results_json(a: &Analysis) -> Value {
     let planets: Vec<Value> = fit
         .planets
         .iter()
-        .zip(&a.derived)
-        .map(|(p, d)| {
+        .zip(a.derived.iter().zip(&a.profiles))
+        .map(|(p, (d, profile))| {
             let mut v = serde_json::to_value(p).unwrap_or(Value::Null);
-            if let (Value::Object(map), Some(d)) = (&mut v, d)
-                && let Ok(Value::Object(extra)) = serde_json::to_value(d)
+            for extra in [
+                d.as_ref().map(serde_json::to_value),
+                profile.as_ref().map(serde_json::to_value),
+            ]
+            .into_iter()
+            .flatten()
             {
-                map.extend(extra);
+                if let (Value::Object(map), Ok(Value::Object(extra))) = (&mut v, extra) {
+                    map.extend(extra);
+                }
             }
             v
         })
@@ -76,6 +82,7 @@ pub fn results_json(a: &Analysis) -> Value {
         "trend": trend,
         "fit": fit_block(fit),
         "search": search,
+        "system": a.system,
         "priors": a.priors,
         "warnings": warnings,
     })

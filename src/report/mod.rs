@@ -1,19 +1,24 @@
 //! Outputs of an analysis: `results.json` (schema `heft-results/1`), the printed summary,
 //! and the run folder they are written into.
 
+mod density;
 mod files;
 mod json;
+mod mass_radius;
 mod text;
 
+pub use density::density_markdown;
 pub use files::{create_run_dir, write_atomic};
 pub use json::{SCHEMA, results_json};
+pub use mass_radius::{PlanetCloud, mass_radius_svg};
 pub use text::{format_summary, summary_text};
 
 use std::path::{Path, PathBuf};
 
 use crate::pipeline::Analysis;
 
-/// Writes `results.json` and `summary.txt` of `analysis` into a new run folder (see
+/// Writes `results.json`, `summary.txt` and, where planets have radii, `density.md` and
+/// `mass_radius.svg` of `analysis` into a new run folder (see
 /// [`create_run_dir`]) and returns the folder.
 ///
 /// # Errors
@@ -26,6 +31,30 @@ pub fn write_run(
     let dir = create_run_dir(out, target_file)?;
     let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;
+    if let Some(md) = density_markdown(analysis) {
+        write_atomic(&dir.join("density.md"), md.as_bytes())?;
+    }
+    let clouds: Vec<PlanetCloud> = analysis
+        .search
+        .fit
+        .planets
+        .iter()
+        .zip(&analysis.derived)
+        .filter_map(|(p, d)| {
+            let d = d.as_ref()?;
+            Some(PlanetCloud {
+                label: &p.label,
+                mass_mearth: d.draws.mass_mearth.as_deref()?,
+                radius_rearth: d.draws.radius_rearth.as_deref()?,
+            })
+        })
+        .collect();
+    if !clouds.is_empty() {
+        write_atomic(
+            &dir.join("mass_radius.svg"),
+            mass_radius_svg(&clouds).as_bytes(),
+        )?;
+    }
     // results.json last: its presence marks a complete run.
     write_atomic(&dir.join("results.json"), &json)?;
     Ok(dir)

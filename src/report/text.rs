@@ -3,6 +3,7 @@
 use std::fmt::Write;
 
 use crate::derive::PlanetDerived;
+use crate::derive::profile::DensityProfile;
 use crate::pipeline::Analysis;
 use crate::summary::Summary;
 
@@ -56,6 +57,29 @@ fn derived_line(d: &PlanetDerived) -> String {
     line
 }
 
+/// One line of a planet's density report: density relative to Earth, T_eq, Jeans
+/// parameter, envelope fraction, P(ρ < 0.3 g/cm³).
+fn profile_line(p: &DensityProfile) -> String {
+    let mut parts = vec![format!("ρ/ρ⊕ = {}", format_summary(&p.density_earth))];
+    if let Some(t) = &p.teq_k {
+        parts.push(format!("T_eq = {} K", format_summary(t)));
+    }
+    if let (Some(l), Some(r)) = (&p.jeans_lambda, p.escape_regime) {
+        parts.push(format!(
+            "Λ = {} ({})",
+            format_summary(l),
+            format!("{r:?}").to_lowercase()
+        ));
+    }
+    if let Some(f) = &p.envelope_fraction {
+        parts.push(format!("H/He fraction = {}", format_summary(f)));
+    }
+    if let Some(p03) = p.p_density_below.get("0.3") {
+        parts.push(format!("P(ρ < 0.3 g/cm³) = {p03:.2}"));
+    }
+    parts.join(", ")
+}
+
 /// The summary of an analysis, several lines of plain text.
 pub fn summary_text(a: &Analysis) -> String {
     let fit = &a.search.fit;
@@ -87,7 +111,7 @@ pub fn summary_text(a: &Analysis) -> String {
         }
     }
     let _ = writeln!(s, "\nplanets (maximum likelihood; ± from the curvature):");
-    for (p, d) in fit.planets.iter().zip(&a.derived) {
+    for ((p, d), profile) in fit.planets.iter().zip(&a.derived).zip(&a.profiles) {
         let _ = writeln!(
             s,
             "  {}: P = {} d, K = {} m/s, e = {}, ω = {}°, Tc = {} BJD_TDB",
@@ -100,6 +124,9 @@ pub fn summary_text(a: &Analysis) -> String {
         );
         if let Some(d) = d {
             let _ = writeln!(s, "     {}", derived_line(d));
+        }
+        if let Some(pr) = profile {
+            let _ = writeln!(s, "     {}", profile_line(pr));
         }
     }
     let _ = writeln!(s, "\ninstruments:");
