@@ -45,6 +45,12 @@ pub struct Star {
     pub teff_err_k: f64,
     /// Age, Gyr.
     pub age_gyr: Option<f64>,
+    /// Mean stellar density, g/cm³ (e.g. from transit a/R*); with a radius, the mass and
+    /// radius are then drawn jointly.
+    pub density_gcc: Option<f64>,
+    /// 1σ uncertainty of the stellar density, g/cm³.
+    #[serde(default)]
+    pub density_err_gcc: f64,
     /// Distance, parsecs (with the proper motion: the secular acceleration).
     pub distance_pc: Option<f64>,
     /// Total proper motion, milliarcseconds per year.
@@ -286,11 +292,13 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
     for (key, v) in [
         ("star.age_gyr", star.age_gyr),
         ("star.distance_pc", star.distance_pc),
+        ("star.density_gcc", star.density_gcc),
     ] {
         if let Some(v) = v {
             positive(key, v)?;
         }
     }
+    non_negative("star.density_err_gcc", star.density_err_gcc)?;
     if let Some(pm) = star.pm_mas_per_yr {
         non_negative("star.pm_mas_per_yr", pm)?;
     }

@@ -296,6 +296,8 @@ fn monte_carlo_density_error_matches_first_order_propagation() {
         teff_k: None,
         teff_err_k: 0.0,
         age_gyr: None,
+        density_gcc: None,
+        density_err_gcc: 0.0,
         distance_pc: None,
         pm_mas_per_yr: None,
     };

@@ -60,6 +60,8 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
             teff_k: None,
             teff_err_k: 0.0,
             age_gyr: None,
+            density_gcc: None,
+            density_err_gcc: 0.0,
             distance_pc: None,
             pm_mas_per_yr: None,
         }),

@@ -181,32 +181,88 @@ impl StarDraws {
     /// [`DeriveError`] for a non-positive value, a negative uncertainty, or an uncertainty
     /// far wider than the value.
     pub fn sample(star: &Star, n: usize, rng: &mut impl Rng) -> Result<StarDraws, DeriveError> {
-        let mass_msun = truncated_normal_draws(
-            "mstar_msun",
-            star.mass_msun,
-            star.mass_err_msun,
-            Support::POSITIVE,
-            n,
-            rng,
-        )?;
-        let radius_rsun = star
-            .radius_rsun
-            .map(|r| {
-                truncated_normal_draws(
-                    "rstar_rsun",
-                    r,
-                    star.radius_err_rsun,
+        let pairs =
+            |count: usize, rng: &mut _| -> Result<(Vec<f64>, Option<Vec<f64>>), DeriveError> {
+                let mass = truncated_normal_draws(
+                    "mstar_msun",
+                    star.mass_msun,
+                    star.mass_err_msun,
                     Support::POSITIVE,
-                    n,
+                    count,
                     rng,
-                )
-            })
-            .transpose()?;
+                )?;
+                let radius = star
+                    .radius_rsun
+                    .map(|r| {
+                        truncated_normal_draws(
+                            "rstar_rsun",
+                            r,
+                            star.radius_err_rsun,
+                            Support::POSITIVE,
+                            count,
+                            rng,
+                        )
+                    })
+                    .transpose()?;
+                Ok((mass, radius))
+            };
+        let (Some(rho), Some(_)) = (star.density_gcc, star.radius_rsun) else {
+            let (mass_msun, radius_rsun) = pairs(n, rng)?;
+            return Ok(StarDraws {
+                mass_msun,
+                radius_rsun,
+            });
+        };
+        // With a measured stellar density (e.g. from transits), mass and radius are drawn
+        // jointly: independent candidates weighted by the density likelihood, then
+        // resampled (sampling–importance resampling; Rubin 1988).
+        check_mean_sigma(
+            "star.density_gcc",
+            rho,
+            star.density_err_gcc,
+            Support::POSITIVE,
+        )?;
+        let sd = star.density_err_gcc.max(1e-6 * rho);
+        let (mass, radius) = pairs(RESAMPLE_FACTOR * n, rng)?;
+        let radius = radius.expect("radius drawn when given");
+        let weights: Vec<f64> = mass
+            .iter()
+            .zip(&radius)
+            .map(|(&m, &r)| (-0.5 * ((stellar_density_gcc(m, r) - rho) / sd).powi(2)).exp())
+            .collect();
+        let total: f64 = weights.iter().sum();
+        if !(total > 0.0) {
+            return Err(DeriveError::InconsistentStar { density_gcc: rho });
+        }
+        // Systematic resampling: one uniform offset, n evenly spaced pointers.
+        let step = total / n as f64;
+        let mut pointer = rng.random::<f64>() * step;
+        let (mut mass_msun, mut radius_rsun) = (Vec::with_capacity(n), Vec::with_capacity(n));
+        let mut cumulative = 0.0;
+        for (j, w) in weights.iter().enumerate() {
+            cumulative += w;
+            while pointer < cumulative && mass_msun.len() < n {
+                mass_msun.push(mass[j]);
+                radius_rsun.push(radius[j]);
+                pointer += step;
+            }
+        }
         Ok(StarDraws {
             mass_msun,
-            radius_rsun,
+            radius_rsun: Some(radius_rsun),
         })
     }
+}
+
+/// Candidates drawn per kept draw when mass and radius are resampled jointly.
+const RESAMPLE_FACTOR: usize = 8;
+
+/// Mean stellar density, g/cm³, of mass (M☉) and radius (R☉).
+pub fn stellar_density_gcc(mass_msun: f64, radius_rsun: f64) -> f64 {
+    use super::constants::{G, GM_SUN, R_SUN};
+    3.0 * mass_msun * GM_SUN
+        / (4.0 * std::f64::consts::PI * G * (radius_rsun * R_SUN).powi(3))
+        / 1000.0
 }
 
 /// Draws of the planet's size.
@@ -369,6 +425,53 @@ mod tests {
         assert!(a.iter().all(|&x| x > 0.0));
         assert_eq!(a, draw(7));
         assert_ne!(a, draw(8));
+    }
+
+    /// The Sun's mean density is 1.41 g/cm³ (common practice); with a stated stellar
+    /// density the joint draws follow it and mass and radius become correlated.
+    #[test]
+    fn stellar_density_couples_mass_and_radius() {
+        assert!((stellar_density_gcc(1.0, 1.0) - 1.41).abs() < 0.01);
+        let star = Star {
+            mass_msun: 1.0,
+            mass_err_msun: 0.1,
+            radius_rsun: Some(1.0),
+            radius_err_rsun: 0.1,
+            teff_k: None,
+            teff_err_k: 0.0,
+            age_gyr: None,
+            density_gcc: Some(1.41),
+            density_err_gcc: 0.03,
+            distance_pc: None,
+            pm_mas_per_yr: None,
+        };
+        let mut rng = ChaCha8Rng::seed_from_u64(3);
+        let d = StarDraws::sample(&star, 4000, &mut rng).unwrap();
+        let r = d.radius_rsun.unwrap();
+        let rho: Vec<f64> = d
+            .mass_msun
+            .iter()
+            .zip(&r)
+            .map(|(m, r)| stellar_density_gcc(*m, *r))
+            .collect();
+        let mean = rho.iter().sum::<f64>() / rho.len() as f64;
+        let sd = (rho.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / rho.len() as f64).sqrt();
+        assert!(
+            (mean - 1.41).abs() < 0.01 && sd < 0.05,
+            "density {mean} ± {sd}"
+        );
+        let (mm, mr) = (
+            d.mass_msun.iter().sum::<f64>() / 4000.0,
+            r.iter().sum::<f64>() / 4000.0,
+        );
+        let cov: f64 = d
+            .mass_msun
+            .iter()
+            .zip(&r)
+            .map(|(m, x)| (m - mm) * (x - mr))
+            .sum::<f64>()
+            / 4000.0;
+        assert!(cov > 0.0, "mass and radius should be positively correlated");
     }
 
     #[test]

@@ -39,6 +39,12 @@ pub const MIN_DRAWS: usize = 100;
 /// Why a derivation could not be done.
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
 pub enum DeriveError {
+    /// The stellar mass and radius never agree with the stated stellar density.
+    #[error("star.density_gcc = {density_gcc}: no drawn stellar mass and radius agree with it")]
+    InconsistentStar {
+        /// The stated density, g/cm³.
+        density_gcc: f64,
+    },
     /// A value lies outside its physical range.
     #[error("{name} = {value}: must be {support}")]
     OutOfRange {

@@ -377,6 +377,8 @@ pub fn calculate(query: &MassQuery, draws: usize, seed: u64) -> Result<PlanetDer
         teff_k: None,
         teff_err_k: 0.0,
         age_gyr: None,
+        density_gcc: None,
+        density_err_gcc: 0.0,
         distance_pc: None,
         pm_mas_per_yr: None,
     };
