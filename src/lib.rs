@@ -28,5 +28,6 @@ pub mod orbit;
 pub mod periodogram;
 pub mod pipeline;
 pub mod report;
+pub mod runs;
 pub mod summary;
 pub mod target;

@@ -95,7 +95,7 @@ pub enum OrbitShape {
 }
 
 /// Analysis settings with stated defaults.
-#[derive(Clone, Debug, PartialEq, Deserialize)]
+#[derive(Clone, Debug, PartialEq, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct Settings {
     /// Seed of every random draw (default 1).

@@ -6,6 +6,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod changes;
 mod fit;
 mod input;
 mod mass;
@@ -30,6 +31,8 @@ enum Command {
     Mass(mass::MassArgs),
     /// Run the whole pipeline for a target file into a new run folder.
     Run(run::RunArgs),
+    /// What changed between the latest two runs of a target.
+    Changes(changes::ChangesArgs),
 }
 
 /// A command's failure, sorted by who is at fault.
@@ -73,6 +76,7 @@ pub fn main() -> ExitCode {
         Command::Fit(args) => fit::run(&args),
         Command::Mass(args) => mass::run(&args),
         Command::Run(args) => run::run(&args),
+        Command::Changes(args) => changes::run(&args),
     };
     match result {
         Ok(code) => code,

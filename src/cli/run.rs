@@ -4,7 +4,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use anyhow::Context;
-use heft::{pipeline, report, target};
+use heft::{pipeline, report, runs, target};
 
 use super::{Failure, print_results};
 
@@ -37,8 +37,11 @@ pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
             out.display()
         )));
     }
+    let manifest = runs::manifest(&target)
+        .with_context(|| "reading the target's files for their checksums")
+        .map_err(Failure::Input)?;
     let analysis = pipeline::run_target(&target).map_err(|e| Failure::Input(e.into()))?;
-    let dir = report::write_run(&analysis, args.out.as_deref(), &args.target)
+    let dir = report::write_run(&analysis, &manifest, args.out.as_deref(), &args.target)
         .with_context(|| "writing the run folder")
         .map_err(Failure::Internal)?;
     let code = print_results(&analysis, args.json)?;

@@ -17,18 +17,22 @@ use std::path::{Path, PathBuf};
 
 use crate::pipeline::Analysis;
 
-/// Writes `results.json`, `summary.txt` and, where planets have radii, `density.md` and
+/// Writes `manifest.json` (inputs' checksums, settings, version, seed), `results.json`,
+/// `summary.txt` and, where planets have radii, `density.md` and
 /// `mass_radius.svg` of `analysis` into a new run folder (see
-/// [`create_run_dir`]) and returns the folder.
+/// [`create_run_dir`]) and returns the folder; a run under `runs/` also becomes `LATEST`.
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
 pub fn write_run(
     analysis: &Analysis,
+    manifest: &crate::runs::Manifest,
     out: Option<&Path>,
     target_file: &Path,
 ) -> std::io::Result<PathBuf> {
     let dir = create_run_dir(out, target_file)?;
+    let manifest = serde_json::to_vec_pretty(manifest).map_err(std::io::Error::other)?;
+    write_atomic(&dir.join("manifest.json"), &manifest)?;
     let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;
     if let Some(md) = density_markdown(analysis) {
@@ -57,5 +61,8 @@ pub fn write_run(
     }
     // results.json last: its presence marks a complete run.
     write_atomic(&dir.join("results.json"), &json)?;
+    if out.is_none() {
+        crate::runs::mark_latest(&dir)?;
+    }
     Ok(dir)
 }
