@@ -6,6 +6,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod batch;
 mod changes;
 mod fit;
 mod input;
@@ -33,6 +34,8 @@ enum Command {
     Run(run::RunArgs),
     /// What changed between the latest two runs of a target.
     Changes(changes::ChangesArgs),
+    /// Run every target file under a folder (sharded for job arrays), or gather shards.
+    Batch(batch::BatchArgs),
 }
 
 /// A command's failure, sorted by who is at fault.
@@ -77,6 +80,7 @@ pub fn main() -> ExitCode {
         Command::Mass(args) => mass::run(&args),
         Command::Run(args) => run::run(&args),
         Command::Changes(args) => changes::run(&args),
+        Command::Batch(args) => batch::run(&args),
     };
     match result {
         Ok(code) => code,

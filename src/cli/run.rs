@@ -3,8 +3,7 @@
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use anyhow::Context;
-use heft::{pipeline, report, runs, target};
+use heft::runs;
 
 use super::{Failure, print_results};
 
@@ -25,28 +24,16 @@ pub struct RunArgs {
 
 /// Runs the command.
 pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
-    let target = target::load(&args.target).map_err(|e| Failure::Input(e.into()))?;
-    if let Some(out) = &args.out
-        && out.exists()
-        && std::fs::read_dir(out)
-            .map(|mut d| d.next().is_some())
-            .unwrap_or(true)
-    {
-        return Err(Failure::Input(anyhow::anyhow!(
-            "{} exists and is not empty; choose a new folder",
-            out.display()
-        )));
-    }
-    let manifest = runs::manifest(&target)
-        .with_context(|| "reading the target's files for their checksums")
-        .map_err(Failure::Input)?;
-    let analysis = pipeline::run_target(&target).map_err(|e| Failure::Input(e.into()))?;
-    let dir = report::write_run(&analysis, &manifest, args.out.as_deref(), &args.target)
-        .with_context(|| "writing the run folder")
-        .map_err(Failure::Internal)?;
-    let code = print_results(&analysis, args.json)?;
+    let done = runs::execute(&args.target, args.out.as_deref()).map_err(|e| {
+        if e.is_input() {
+            Failure::Input(e.into())
+        } else {
+            Failure::Internal(e.into())
+        }
+    })?;
+    let code = print_results(&done.analysis, args.json)?;
     if !args.json {
-        eprintln!("results written to {}", dir.display());
+        eprintln!("results written to {}", done.dir.display());
     }
     Ok(code)
 }

@@ -4,9 +4,16 @@
 //! A run folder is complete when it holds `results.json` (written last, atomically);
 //! `runs/LATEST` names the newest complete run.
 
+mod batch;
 mod changes;
+mod execute;
 
+pub use batch::{
+    BatchOutcome, Discovery, Shard, ShardError, discover, gather, run_batch, shard_from_env,
+    summary_csv,
+};
 pub use changes::{Changes, PlanetChange, changes_text, compare};
+pub use execute::{Completed, RunError, execute};
 
 use std::fs;
 use std::io;
@@ -53,9 +60,10 @@ pub struct Manifest {
 /// Checksum record of one file.
 ///
 /// # Errors
-/// I/O errors reading the file.
+/// I/O errors reading the file, naming it.
 pub fn file_record(path: &Path) -> io::Result<FileRecord> {
-    let bytes = fs::read(path)?;
+    let bytes = fs::read(path)
+        .map_err(|e| io::Error::new(e.kind(), format!("{}: cannot read: {e}", path.display())))?;
     let digest = Sha256::digest(&bytes);
     Ok(FileRecord {
         path: path.display().to_string(),

@@ -1,0 +1,146 @@
+//! `heft batch`: every target under a folder, sharded for job arrays; `--gather` merges
+//! the shards' summary tables.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use anyhow::{Context, anyhow};
+use heft::report::write_atomic;
+use heft::runs::{self, Shard};
+use serde_json::json;
+
+use super::Failure;
+
+/// Arguments of `heft batch`.
+#[derive(clap::Args, Debug)]
+pub struct BatchArgs {
+    /// Folder searched (recursively) for target files.
+    #[arg(value_name = "FOLDER")]
+    folder: PathBuf,
+    /// Run only shard K of N (targets i with i mod N = K − 1, in path order). Without it,
+    /// a Slurm or Grid Engine array task's variables choose the shard when present.
+    #[arg(long, value_name = "K/N")]
+    shard: Option<Shard>,
+    /// Most targets run at once (default: all cores).
+    #[arg(long)]
+    threads: Option<usize>,
+    /// Merge the shards' summary tables in FOLDER into batch-summary.csv instead of running.
+    #[arg(long, conflicts_with = "shard")]
+    gather: bool,
+    /// Print the outcome as JSON.
+    #[arg(long)]
+    json: bool,
+}
+
+fn input(e: anyhow::Error) -> Failure {
+    Failure::Input(e)
+}
+
+/// Runs the command. Exit 2 when any target failed (the others still ran).
+pub fn run(args: &BatchArgs) -> Result<ExitCode, Failure> {
+    if args.gather {
+        return gather(args);
+    }
+    let shard = match args.shard {
+        Some(s) => Some(s),
+        None => runs::shard_from_env(|k| std::env::var(k).ok()).map_err(|e| input(e.into()))?,
+    };
+    let runs::Discovery { targets, skipped } = runs::discover(&args.folder)
+        .with_context(|| format!("searching {}", args.folder.display()))
+        .map_err(input)?;
+    let mine: Vec<PathBuf> = targets
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| shard.is_none_or(|s| s.contains(*i)))
+        .map(|(_, t)| t.clone())
+        .collect();
+    let threads = args
+        .threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let outcomes = runs::run_batch(&mine, threads);
+    let name = match shard {
+        Some(s) => format!("batch-summary-{}-of-{}.csv", s.index, s.count),
+        None => "batch-summary.csv".to_string(),
+    };
+    let summary = args.folder.join(name);
+    write_atomic(&summary, runs::summary_csv(&outcomes).as_bytes())
+        .with_context(|| format!("writing {}", summary.display()))
+        .map_err(Failure::Internal)?;
+    let failed: Vec<_> = outcomes.iter().filter(|o| o.error.is_some()).collect();
+    if args.json {
+        let doc = json!({
+            "shard": shard,
+            "targets": outcomes.iter().map(|o| json!({"target": o.target, "error": o.error})).collect::<Vec<_>>(),
+            "skipped": skipped.iter().map(|(p, why)| json!({"file": p, "reason": why})).collect::<Vec<_>>(),
+            "summary": summary,
+        });
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))?
+        );
+    } else {
+        println!(
+            "{} target(s) run, {} failed; summary in {}",
+            outcomes.len(),
+            failed.len(),
+            summary.display()
+        );
+        for o in &failed {
+            eprintln!(
+                "failed: {}: {}",
+                o.target.display(),
+                o.error.as_deref().unwrap_or_default()
+            );
+        }
+        for (p, why) in &skipped {
+            eprintln!("skipped (not a target file): {}: {why}", p.display());
+        }
+    }
+    Ok(if failed.is_empty() {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(2)
+    })
+}
+
+fn gather(args: &BatchArgs) -> Result<ExitCode, Failure> {
+    let mut tables = Vec::new();
+    for entry in std::fs::read_dir(&args.folder)
+        .with_context(|| format!("reading {}", args.folder.display()))
+        .map_err(input)?
+    {
+        let path = entry.map_err(|e| input(e.into()))?.path();
+        let name = path
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        if name.starts_with("batch-summary-") && name.ends_with(".csv") {
+            let text = std::fs::read_to_string(&path)
+                .with_context(|| format!("reading {}", path.display()))
+                .map_err(input)?;
+            tables.push((path, text));
+        }
+    }
+    if tables.is_empty() {
+        return Err(input(anyhow!(
+            "{}: no shard tables batch-summary-K-of-N.csv",
+            args.folder.display()
+        )));
+    }
+    tables.sort();
+    let merged = runs::gather(&tables).map_err(|e| input(anyhow!(e)))?;
+    let out = args.folder.join("batch-summary.csv");
+    write_atomic(&out, merged.as_bytes())
+        .with_context(|| format!("writing {}", out.display()))
+        .map_err(Failure::Internal)?;
+    if args.json {
+        println!("{}", json!({"merged": tables.len(), "summary": out}));
+    } else {
+        println!(
+            "merged {} shard table(s) into {}",
+            tables.len(),
+            out.display()
+        );
+    }
+    Ok(ExitCode::SUCCESS)
+}

@@ -1,0 +1,64 @@
+//! One complete run of a target file: checksums, analysis, run folder.
+
+use std::io;
+use std::path::{Path, PathBuf};
+
+use crate::pipeline::{self, Analysis, PipelineError};
+use crate::target::{self, TargetError};
+
+/// Why a run failed.
+#[derive(Debug, thiserror::Error)]
+pub enum RunError {
+    /// The target file is unreadable or invalid.
+    #[error(transparent)]
+    Target(#[from] TargetError),
+    /// The requested output folder is in use.
+    #[error("{0} exists and is not empty; choose a new folder")]
+    OutNotEmpty(PathBuf),
+    /// A file named by the target could not be read for its checksum.
+    #[error("reading the target's files for their checksums: {0}")]
+    Checksum(io::Error),
+    /// The analysis failed (bad data, failed fit).
+    #[error(transparent)]
+    Pipeline(#[from] PipelineError),
+    /// The run folder could not be written; earlier runs are untouched.
+    #[error("writing the run folder: {0}")]
+    Write(io::Error),
+}
+
+impl RunError {
+    /// Whether the user's input is at fault (exit 2) rather than heft or the machine.
+    pub fn is_input(&self) -> bool {
+        !matches!(self, RunError::Write(_))
+    }
+}
+
+/// A finished run.
+#[derive(Debug)]
+pub struct Completed {
+    /// The analysis.
+    pub analysis: Analysis,
+    /// The run folder written.
+    pub dir: PathBuf,
+}
+
+/// Runs `target_file` end to end into `out` (or a new folder under `runs/`).
+///
+/// # Errors
+/// [`RunError`]; nothing earlier is overwritten in any case.
+pub fn execute(target_file: &Path, out: Option<&Path>) -> Result<Completed, RunError> {
+    let target = target::load(target_file)?;
+    if let Some(out) = out
+        && out.exists()
+        && std::fs::read_dir(out)
+            .map(|mut d| d.next().is_some())
+            .unwrap_or(true)
+    {
+        return Err(RunError::OutNotEmpty(out.to_path_buf()));
+    }
+    let manifest = super::manifest(&target).map_err(RunError::Checksum)?;
+    let analysis = pipeline::run_target(&target)?;
+    let dir = crate::report::write_run(&analysis, &manifest, out, target_file)
+        .map_err(RunError::Write)?;
+    Ok(Completed { analysis, dir })
+}
