@@ -14,7 +14,9 @@ use std::path::{Path, PathBuf};
 use crate::pipeline::Analysis;
 
 /// Writes `results.json` and `summary.txt` of `analysis` into a new run folder (see
-/// [`create_run_dir`]) and returns the folder.
+/// [`create_run_dir`]) and returns the folder; with a periodogram report also
+/// `periodogram.svg`, `periodogram.json` (peaks, FAPs, aliases, window peaks) and
+/// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid).
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
@@ -26,6 +28,16 @@ pub fn write_run(
     let dir = create_run_dir(out, target_file)?;
     let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;
+    if let Some(ov) = &analysis.periodograms {
+        let title = format!("{}: GLS periodogram", analysis.name);
+        write_atomic(
+            &dir.join("periodogram.svg"),
+            crate::periodogram::svg(ov, &title).as_bytes(),
+        )?;
+        write_atomic(&dir.join("periodograms.csv"), ov.table().as_bytes())?;
+        let peaks = serde_json::to_vec_pretty(&ov.to_json()).map_err(std::io::Error::other)?;
+        write_atomic(&dir.join("periodogram.json"), &peaks)?;
+    }
     // results.json last: its presence marks a complete run.
     write_atomic(&dir.join("results.json"), &json)?;
     Ok(dir)
