@@ -13,7 +13,7 @@ use crate::derive::system::{
 };
 use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, TransitDraws};
 use crate::fit::{self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount};
-use crate::periodogram;
+use crate::periodogram::{self, Overview, OverviewSettings, PeriodogramError};
 use crate::summary::Summary;
 use crate::target::{Settings, Star, Target, Transit};
 
@@ -29,6 +29,9 @@ pub enum PipelineError {
     /// Stellar or transit values could not be turned into draws, or a derivation failed.
     #[error("deriving planet properties: {0}")]
     Derive(#[from] DeriveError),
+    /// The periodogram report could not be computed.
+    #[error("periodogram report: {0}")]
+    Periodogram(#[from] PeriodogramError),
 }
 
 /// A constraint or bound the analysis used, recorded in results.json.
@@ -162,6 +165,9 @@ pub struct Analysis {
     pub seed: u64,
     /// Monte Carlo draws used for derived quantities.
     pub draws: usize,
+    /// Periodogram report (RV, window, indicators, residuals after each signal); made by
+    /// [`run_target`].
+    pub periodograms: Option<Overview>,
 }
 
 /// Search settings from a target file's settings.
@@ -195,7 +201,7 @@ pub fn profile_settings(s: &Settings) -> ProfileSettings {
 /// [`PipelineError`] for unreadable or invalid data and failed fits.
 pub fn run_target(target: &Target) -> Result<Analysis, PipelineError> {
     let set = data::load(&target.data)?;
-    analyse(Request {
+    let mut analysis = analyse(Request {
         name: target.name.clone(),
         set,
         star: Some(&target.star),
@@ -206,7 +212,40 @@ pub fn run_target(target: &Target) -> Result<Analysis, PipelineError> {
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),
-    })
+    })?;
+    analysis.periodograms = Some(periodogram_report(&analysis)?);
+    Ok(analysis)
+}
+
+/// Bootstrap replicates of the run report's false-alarm probabilities.
+const REPORT_BOOTSTRAP: usize = 200;
+
+/// The periodogram report on the search grid: the data's periodogram, window and
+/// indicators, and the residual periodogram after each signal the search fitted.
+fn periodogram_report(a: &Analysis) -> Result<Overview, PeriodogramError> {
+    let steps = &a.search.steps;
+    let grid = steps[0].periodogram.grid;
+    let settings = OverviewSettings {
+        method: periodogram::Method::FAST,
+        bootstrap: REPORT_BOOTSTRAP,
+        seed: a.seed,
+        ..OverviewSettings::default()
+    };
+    let mut ov = periodogram::overview(&a.set, &[], &grid, &settings)?;
+    // Step i's residuals are after the fit with (final − later accepted steps) signals.
+    let accepted = steps.iter().filter(|s| s.accepted).count();
+    let known = a.search.fit.planets.len() - accepted;
+    for (i, step) in steps.iter().enumerate() {
+        let n = known + i;
+        if n > 0 {
+            let plural = if n == 1 { "" } else { "s" };
+            ov.add_residuals(
+                &format!("residuals after {n} signal{plural}"),
+                &step.periodogram,
+            )?;
+        }
+    }
+    Ok(ov)
 }
 
 /// Searches, fits and derives.
@@ -317,6 +356,7 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
         priors,
         seed: req.seed,
         draws: req.draws,
+        periodograms: None,
     })
 }
 

@@ -72,6 +72,42 @@ fn periodogram_table_is_the_requested_grid() {
     assert!(peaks.iter().all(|p| p["fap"].as_f64().unwrap() <= 1.0));
 }
 
+/// `--fast` gives the same peaks as the exact sums; the JSON carries the bootstrap FAP,
+/// aliases and window peaks; `--plot` writes an SVG; a bad `--accuracy` exits 2.
+#[test]
+fn periodogram_fast_plot_and_bootstrap() {
+    let dir = tempfile::tempdir().unwrap();
+    let plot = dir.path().join("pg.svg");
+    let data = repo("data-demo/quill.csv");
+    let exact = json_of(&heft(&[
+        "periodogram",
+        &data,
+        "--json",
+        "--bootstrap",
+        "50",
+    ]));
+    let fast = json_of(&heft(&[
+        "periodogram",
+        &data,
+        "--json",
+        "--fast",
+        "--bootstrap",
+        "50",
+        "--plot",
+        plot.to_str().unwrap(),
+    ]));
+    let (pe, pf) = (&exact["peaks"][0], &fast["peaks"][0]);
+    assert_eq!(pe["frequency"], pf["frequency"]);
+    assert!((pe["power"].as_f64().unwrap() - pf["power"].as_f64().unwrap()).abs() < 1e-9);
+    assert_eq!(pe["fap_bootstrap"], pf["fap_bootstrap"]);
+    assert!(!pf["aliases"].as_array().unwrap().is_empty());
+    assert!(fast["window_peaks"][0]["frequency"].is_number());
+    assert!(std::fs::read_to_string(&plot).unwrap().starts_with("<svg"));
+    let bad = heft(&["periodogram", &data, "--fast", "--accuracy", "2"]);
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(stderr(&bad).contains("tolerance"), "{}", stderr(&bad));
+}
+
 #[test]
 fn fit_json_has_the_contract_keys() {
     let out = heft(&[
@@ -152,6 +188,20 @@ fn run_writes_a_new_folder_and_refuses_a_full_one() {
             .unwrap();
     assert_eq!(doc, on_disk);
     assert!(out_dir.join("summary.txt").exists());
+    // Periodogram report: figure, peaks, and RV/window/residual/indicator columns.
+    let svg = std::fs::read_to_string(out_dir.join("periodogram.svg")).unwrap();
+    assert!(svg.starts_with("<svg") && svg.contains("spectral window"));
+    let table = std::fs::read_to_string(out_dir.join("periodograms.csv")).unwrap();
+    let header = table.lines().next().unwrap();
+    assert!(
+        header.starts_with("frequency,period,power,window,residuals after 1 signal")
+            && header.contains("indicator "),
+        "{header}"
+    );
+    let pg: Value =
+        serde_json::from_str(&std::fs::read_to_string(out_dir.join("periodogram.json")).unwrap())
+            .unwrap();
+    assert!(pg["peaks"][0]["fap_bootstrap"].is_number());
     let b = doc["planets"]
         .as_array()
         .unwrap()

@@ -15,13 +15,13 @@ pub const BLOCK: usize = 512;
 /// Data prepared once per periodogram: normalised weights, RVs centred on each
 /// instrument's weighted mean, instrument weight fractions.
 pub(super) struct Prepared<'a> {
-    time: &'a [f64],
-    inst: &'a [usize],
-    w: Vec<f64>,
-    wy: Vec<f64>,
+    pub(super) time: &'a [f64],
+    pub(super) inst: &'a [usize],
+    pub(super) w: Vec<f64>,
+    pub(super) wy: Vec<f64>,
     yy: f64,
-    inst_weight: Vec<f64>,
-    inst_mean: Vec<f64>,
+    pub(super) inst_weight: Vec<f64>,
+    pub(super) inst_mean: Vec<f64>,
 }
 
 /// Weighted sums at one frequency, centred per instrument (notation of Zechmeister &
@@ -64,15 +64,16 @@ impl Sums {
     }
 }
 
-/// Raw accumulators for a block of frequencies.
-struct Raw {
-    yc: Vec<f64>,
-    ys: Vec<f64>,
-    cc: Vec<f64>,
-    cs: Vec<f64>,
+/// Raw accumulators for a run of `len` consecutive grid frequencies: `Σ w y' cos`,
+/// `Σ w y' sin`, `Σ w cos²`, `Σ w cos sin` (y' centred per instrument, Σ w = 1).
+pub(super) struct Raw {
+    pub(super) yc: Vec<f64>,
+    pub(super) ys: Vec<f64>,
+    pub(super) cc: Vec<f64>,
+    pub(super) cs: Vec<f64>,
     /// Per instrument `k`: Σ w cos at `c_k[k * len + j]`, likewise `s_k`.
-    c_k: Vec<f64>,
-    s_k: Vec<f64>,
+    pub(super) c_k: Vec<f64>,
+    pub(super) s_k: Vec<f64>,
 }
 
 impl<'a> Prepared<'a> {
@@ -193,8 +194,13 @@ impl<'a> Prepared<'a> {
     pub(super) fn block(&self, grid: &Grid, start: usize, out: &mut [f64]) {
         let len = out.len();
         let raw = self.accumulate(grid.frequency(start), grid.df, len);
+        self.powers(&raw, 0, len, out);
+    }
+
+    /// Power from accumulators `raw` (of `len` frequencies) at `first .. first + out.len()`.
+    pub(super) fn powers(&self, raw: &Raw, first: usize, len: usize, out: &mut [f64]) {
         for (j, p) in out.iter_mut().enumerate() {
-            *p = self.sums(&raw, j, len).power();
+            *p = self.sums(raw, first + j, len).power();
         }
     }
 }

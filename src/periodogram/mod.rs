@@ -2,13 +2,24 @@
 //! peaks and analytic false-alarm probabilities.
 //!
 //! Entry point: [`compute`] evaluates the power on a [`Grid`] for an [`RvSet`] with given
-//! per-instrument jitters (the weights are `1/(σ² + s²)`).
+//! per-instrument jitters (the weights are `1/(σ² + s²)`), by exact sums or, with
+//! [`Method::Fast`], by non-uniform FFTs ([`compute_with`]).
 
+mod bootstrap;
 mod fap;
+mod fast;
 mod gls;
+mod overview;
+mod plot;
+mod window;
 
+pub use bootstrap::{Bootstrap, bootstrap};
 pub use fap::baluev_fap;
+pub use fast::{DEFAULT_TOLERANCE, MIN_TOLERANCE};
 pub use gls::{Sinusoid, sinusoid_at};
+pub use overview::{Candidate, Overview, OverviewSettings, Panel, overview, table_csv};
+pub use plot::svg;
+pub use window::{Alias, WindowPeak, aliases, spectral_window, window_peaks};
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -43,6 +54,41 @@ pub enum PeriodogramError {
         "a grid of {0} frequencies is larger than the {MAX_GRID} allowed; use fewer points (--nfreq), a narrower range or a coarser step"
     )]
     TooLarge(usize),
+    /// The fast method would need more memory than allowed.
+    #[error(
+        "the fast method would need {gib:.1} GiB of memory for {n} frequencies (limit 8 GiB); use fewer frequencies (--nfreq), a narrower range or a coarser step"
+    )]
+    Memory {
+        /// Memory needed, GiB.
+        gib: f64,
+        /// Grid size.
+        n: usize,
+    },
+    /// Fast-method tolerance out of range.
+    #[error("the fast method's tolerance must be between {MIN_TOLERANCE:e} and 0.1, got {0}")]
+    Tolerance(f64),
+}
+
+/// How the trigonometric sums are evaluated.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "name")]
+pub enum Method {
+    /// Direct sums, O(N M): block-wise trigonometric recurrences, rayon across blocks.
+    Exact,
+    /// Non-uniform FFTs (Press & Rybicki 1989 with the kernel of Barnett et al. 2019),
+    /// O(N w + M log M); `tolerance` is the relative accuracy of the sums
+    /// ([`DEFAULT_TOLERANCE`] keeps the power within 1e-9 of the exact one).
+    Fast {
+        /// Relative accuracy of each sum, in [`MIN_TOLERANCE`, 0.1].
+        tolerance: f64,
+    },
+}
+
+impl Method {
+    /// The fast method at [`DEFAULT_TOLERANCE`].
+    pub const FAST: Method = Method::Fast {
+        tolerance: DEFAULT_TOLERANCE,
+    };
 }
 
 /// A linear frequency grid `fmin, fmin + df, ..., fmin + (n-1) df` (cycles/day).
@@ -169,12 +215,35 @@ pub fn compute(
     jitters_mps: &[f64],
     grid: &Grid,
 ) -> Result<Periodogram, PeriodogramError> {
+    compute_with(set, jitters_mps, grid, Method::Exact)
+}
+
+/// As [`compute`], with the sums evaluated by `method`.
+///
+/// # Errors
+/// As [`compute`]; for [`Method::Fast`] also a tolerance out of range or a grid whose
+/// transforms would not fit in memory.
+pub fn compute_with(
+    set: &RvSet,
+    jitters_mps: &[f64],
+    grid: &Grid,
+    method: Method,
+) -> Result<Periodogram, PeriodogramError> {
     let prep = gls::Prepared::new(set, jitters_mps)?;
     let mut power = vec![0.0; grid.n];
-    power
-        .par_chunks_mut(gls::BLOCK)
-        .enumerate()
-        .for_each(|(b, out)| prep.block(grid, b * gls::BLOCK, out));
+    match method {
+        Method::Exact => power
+            .par_chunks_mut(gls::BLOCK)
+            .enumerate()
+            .for_each(|(b, out)| prep.block(grid, b * gls::BLOCK, out)),
+        Method::Fast { tolerance } => {
+            let raw = fast::raw_sums(&prep, grid, tolerance)?;
+            power
+                .par_chunks_mut(gls::BLOCK)
+                .enumerate()
+                .for_each(|(b, out)| prep.powers(&raw, b * gls::BLOCK, grid.n, out));
+        }
+    }
     Ok(Periodogram {
         grid: *grid,
         power,
@@ -196,28 +265,48 @@ impl Periodogram {
         )
     }
 
-    /// Up to `n` highest local maxima, highest first, at least `min_sep` (1/day) apart.
+    /// Up to `n` highest local maxima, highest first, at least `min_sep` (1/day) apart
+    /// (the grid's ends count as maxima).
     pub fn peaks(&self, n: usize, min_sep: f64) -> Vec<Peak> {
-        let p = &self.power;
-        let mut idx: Vec<usize> = (0..p.len())
-            .filter(|&j| (j == 0 || p[j] >= p[j - 1]) && (j + 1 == p.len() || p[j] > p[j + 1]))
-            .collect();
-        idx.sort_by(|&a, &b| p[b].total_cmp(&p[a]));
-        let mut chosen: Vec<Peak> = Vec::new();
-        for j in idx {
-            if chosen.len() == n {
-                break;
-            }
-            let f = self.grid.frequency(j);
-            if chosen.iter().all(|c| (c.frequency - f).abs() >= min_sep) {
-                chosen.push(Peak {
+        local_maxima(&self.power, &self.grid, n, min_sep, true)
+            .into_iter()
+            .map(|j| {
+                let f = self.grid.frequency(j);
+                Peak {
                     frequency: f,
                     period: 1.0 / f,
-                    power: p[j],
-                    fap: self.fap(p[j]),
-                });
-            }
-        }
-        chosen
+                    power: self.power[j],
+                    fap: self.fap(self.power[j]),
+                }
+            })
+            .collect()
     }
+}
+
+/// Indices of up to `n` highest local maxima of `p` on `grid`, highest first, at least
+/// `min_sep` (1/day) apart; the ends of the grid count only when `ends` is set.
+fn local_maxima(p: &[f64], grid: &Grid, n: usize, min_sep: f64, ends: bool) -> Vec<usize> {
+    let last = p.len().saturating_sub(1);
+    let mut idx: Vec<usize> = (0..p.len())
+        .filter(|&j| {
+            let left = if j == 0 { ends } else { p[j] >= p[j - 1] };
+            let right = if j == last { ends } else { p[j] > p[j + 1] };
+            left && right
+        })
+        .collect();
+    idx.sort_by(|&a, &b| p[b].total_cmp(&p[a]));
+    let mut chosen: Vec<usize> = Vec::new();
+    for j in idx {
+        if chosen.len() == n {
+            break;
+        }
+        let f = grid.frequency(j);
+        if chosen
+            .iter()
+            .all(|&c| (grid.frequency(c) - f).abs() >= min_sep)
+        {
+            chosen.push(j);
+        }
+    }
+    chosen
 }

@@ -18,9 +18,11 @@ use std::path::{Path, PathBuf};
 use crate::pipeline::Analysis;
 
 /// Writes `manifest.json` (inputs' checksums, settings, version, seed), `results.json`,
-/// `summary.txt` and, where planets have radii, `density.md` and
-/// `mass_radius.svg` of `analysis` into a new run folder (see
-/// [`create_run_dir`]) and returns the folder; a run under `runs/` also becomes `LATEST`.
+/// `summary.txt` and, where planets have radii, `density.md` and `mass_radius.svg` of
+/// `analysis` into a new run folder (see [`create_run_dir`]) and returns the folder; a
+/// run under `runs/` also becomes `LATEST`. With a periodogram report also
+/// `periodogram.svg`, `periodogram.json` (peaks, FAPs, aliases, window peaks) and
+/// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid).
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
@@ -58,6 +60,16 @@ pub fn write_run(
             &dir.join("mass_radius.svg"),
             mass_radius_svg(&clouds).as_bytes(),
         )?;
+    }
+    if let Some(ov) = &analysis.periodograms {
+        let title = format!("{}: GLS periodogram", analysis.name);
+        write_atomic(
+            &dir.join("periodogram.svg"),
+            crate::periodogram::svg(ov, &title).as_bytes(),
+        )?;
+        write_atomic(&dir.join("periodograms.csv"), ov.table().as_bytes())?;
+        let peaks = serde_json::to_vec_pretty(&ov.to_json()).map_err(std::io::Error::other)?;
+        write_atomic(&dir.join("periodogram.json"), &peaks)?;
     }
     // results.json last: its presence marks a complete run.
     write_atomic(&dir.join("results.json"), &json)?;
