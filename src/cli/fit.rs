@@ -35,7 +35,11 @@ pub struct FitArgs {
     /// 1σ uncertainty of the stellar mass, solar masses.
     #[arg(long, requires = "mstar_msun", default_value_t = 0.0)]
     mstar_err: f64,
-    /// Seed of the Monte Carlo draws.
+    /// Sample the posterior (values and errors from posterior draws, with convergence
+    /// diagnostics; exit status 3 if it does not converge).
+    #[arg(long)]
+    sample: bool,
+    /// Seed of the sampler and the Monte Carlo draws.
     #[arg(long, default_value_t = 1)]
     seed: u64,
     /// Print results as JSON (schema heft-results/1).
@@ -105,7 +109,18 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
         },
         seed: args.seed,
         draws: defaults.draws,
+        sampler: args.sample.then(|| {
+            Settings {
+                seed: args.seed,
+                ..defaults.clone()
+            }
+            .sampler()
+        }),
+        priors: Default::default(),
     };
-    let analysis = pipeline::analyse(request).map_err(|e| Failure::Input(e.into()))?;
+    let (bar, mut progress) = super::sampler_progress();
+    let analysis = pipeline::analyse(request, &mut progress);
+    bar.finish_and_clear();
+    let analysis = analysis.map_err(|e| Failure::Input(e.into()))?;
     print_results(&analysis, args.json)
 }

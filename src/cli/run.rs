@@ -37,10 +37,18 @@ pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
             out.display()
         )));
     }
-    let analysis = pipeline::run_target(&target).map_err(|e| Failure::Input(e.into()))?;
-    let dir = report::write_run(&analysis, args.out.as_deref(), &args.target)
-        .with_context(|| "writing the run folder")
-        .map_err(Failure::Internal)?;
+    let (bar, mut progress) = super::sampler_progress();
+    let analysis = pipeline::run_target(&target, &mut progress);
+    bar.finish_and_clear();
+    let analysis = analysis.map_err(|e| Failure::Input(e.into()))?;
+    let dir = report::write_run(
+        &analysis,
+        args.out.as_deref(),
+        &args.target,
+        target.settings.draws_csv,
+    )
+    .with_context(|| "writing the run folder")
+    .map_err(Failure::Internal)?;
     let code = print_results(&analysis, args.json)?;
     if !args.json {
         eprintln!("results written to {}", dir.display());

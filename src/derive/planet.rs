@@ -91,6 +91,20 @@ impl PlanetDerived {
     pub fn n_draws(&self) -> usize {
         self.draws.msini_mearth.len()
     }
+
+    /// Adds the 95th and 99th percentiles of the draws as upper limits to m sin i and the
+    /// mass (for a signal not significantly detected).
+    pub fn with_upper_limits(mut self) -> PlanetDerived {
+        let to_mjup = |v: &[f64]| -> Vec<f64> { v.iter().map(|m| m / MJUP_IN_MEARTH).collect() };
+        let msini = &self.draws.msini_mearth;
+        self.msini_mearth = self.msini_mearth.with_upper_limits(msini);
+        self.msini_mjup = self.msini_mjup.with_upper_limits(&to_mjup(msini));
+        if let Some(m) = &self.draws.mass_mearth {
+            self.mass_mearth = self.mass_mearth.map(|s| s.with_upper_limits(m));
+            self.mass_mjup = self.mass_mjup.map(|s| s.with_upper_limits(&to_mjup(m)));
+        }
+        self
+    }
 }
 
 /// Derives the planet from draws of its orbit, its star and (optionally) its transit.
