@@ -4,7 +4,7 @@
 //! [`data`] (RV tables → [`data::RvSet`]), [`periodogram`] (generalised Lomb–Scargle,
 //! false-alarm probabilities, iterative signal search), [`orbit`] (Kepler's equation and
 //! the Keplerian RV curve), [`model`] (planets + offsets + jitter + trend, likelihood),
-//! [`fit`] (maximum likelihood), [`derive`](mod@derive) (K → mass, radius, density) and [`report`]
+//! [`fit`] (maximum likelihood), [`sample`] (posterior draws), [`derive`](mod@derive) (K → mass, radius, density) and [`report`]
 //! (results.json and the printed summary). [`pipeline`] chains them for one target file.
 //!
 //! # Units and signs
@@ -29,5 +29,6 @@ pub mod periodogram;
 pub mod pipeline;
 pub mod report;
 pub mod runs;
+pub mod sample;
 pub mod summary;
 pub mod target;

@@ -1,6 +1,8 @@
-//! Runs the stages in order for one data set: signal search and joint fit, then the
-//! derived planet properties from Monte Carlo draws. [`run_target`] does it for a target
-//! file, [`analyse`] for data already loaded (the `fit` command).
+//! Runs the stages in order for one data set: signal search and joint fit, the
+//! significance of each signal, posterior sampling (when asked for), then the derived
+//! planet properties from the posterior draws (or from the fit's curvature Gaussian)
+//! joined with fresh stellar and transit draws. [`run_target`] does it for a target file,
+//! [`analyse`] for data already loaded (the `fit` command).
 
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
@@ -12,10 +14,13 @@ use crate::derive::system::{
     PairSpacing, TrendCompanion, hill_spacing, secular_acceleration_mps_per_yr, trend_companion,
 };
 use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, TransitDraws};
-use crate::fit::{self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount};
+use crate::fit::{
+    self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount, SignalTest,
+};
 use crate::periodogram::{self, Overview, OverviewSettings, PeriodogramError};
+use crate::sample::{self, Posterior, PriorSet, Progress, SampleError, SamplerSettings};
 use crate::summary::Summary;
-use crate::target::{Settings, Star, Target, Transit};
+use crate::target::{PriorChoices, Settings, Star, Target, Transit};
 
 /// Why an analysis stopped.
 #[derive(Debug, thiserror::Error)]
@@ -32,6 +37,9 @@ pub enum PipelineError {
     /// The periodogram report could not be computed.
     #[error("periodogram report: {0}")]
     Periodogram(#[from] PeriodogramError),
+    /// The priors do not fit the model, or sampling could not start.
+    #[error("sampling the posterior: {0}")]
+    Sample(#[from] SampleError),
 }
 
 /// A constraint or bound the analysis used, recorded in results.json.
@@ -39,10 +47,12 @@ pub enum PipelineError {
 pub struct Prior {
     /// Parameter, e.g. `b.period_d`.
     pub parameter: String,
-    /// `gaussian`, `fixed` or `bound`.
+    /// `uniform`, `log-uniform`, `gaussian`, `fixed` or `bound`.
     pub kind: &'static str,
     /// Description with values and units.
     pub detail: String,
+    /// Where it comes from: `default`, `transit`, `target file` or `request`.
+    pub source: &'static str,
 }
 
 /// What to analyse and how.
@@ -64,8 +74,12 @@ pub struct Request<'a> {
     pub search: SearchSettings,
     /// Seed of every random draw.
     pub seed: u64,
-    /// Monte Carlo draws for derived quantities.
+    /// Monte Carlo draws for derived quantities (at most this many posterior draws).
     pub draws: usize,
+    /// Sample the posterior with these settings; `None` keeps the curvature errors.
+    pub sampler: Option<SamplerSettings>,
+    /// Priors chosen by the user (the others keep their defaults).
+    pub priors: PriorChoices,
     /// Model choices of the density report.
     pub profile: ProfileSettings,
 }
@@ -159,7 +173,11 @@ pub struct Analysis {
     pub profiles: Vec<Option<DensityProfile>>,
     /// System-level checks.
     pub system: SystemReport,
-    /// Constraints and bounds used.
+    /// Significance of each fitted planet (same order).
+    pub signals: Vec<SignalTest>,
+    /// Posterior draws and summaries, when sampled.
+    pub posterior: Option<Posterior>,
+    /// Constraints, bounds and priors used.
     pub priors: Vec<Prior>,
     /// Seed used.
     pub seed: u64,
@@ -195,13 +213,17 @@ pub fn profile_settings(s: &Settings) -> ProfileSettings {
     }
 }
 
-/// Reads the target's data and analyses it with the target's settings.
+/// Reads the target's data and analyses it with the target's settings; `progress` hears
+/// from the sampler.
 ///
 /// # Errors
 /// [`PipelineError`] for unreadable or invalid data and failed fits.
-pub fn run_target(target: &Target) -> Result<Analysis, PipelineError> {
+pub fn run_target(
+    target: &Target,
+    progress: &mut dyn FnMut(&Progress),
+) -> Result<Analysis, PipelineError> {
     let set = data::load(&target.data)?;
-    let mut analysis = analyse(Request {
+    let request = Request {
         name: target.name.clone(),
         set,
         star: Some(&target.star),
@@ -212,7 +234,10 @@ pub fn run_target(target: &Target) -> Result<Analysis, PipelineError> {
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),
-    })?;
+        sampler: target.settings.sample.then(|| target.settings.sampler()),
+        priors: target.priors.clone(),
+    };
+    let mut analysis = analyse(request, progress)?;
     analysis.periodograms = Some(periodogram_report(&analysis)?);
     Ok(analysis)
 }
@@ -248,18 +273,27 @@ fn periodogram_report(a: &Analysis) -> Result<Overview, PeriodogramError> {
     Ok(ov)
 }
 
-/// Searches, fits and derives.
+/// Searches, fits, tests each signal, samples (when asked) and derives; `progress` hears
+/// from the sampler.
 ///
 /// # Errors
-/// [`PipelineError`] for failed fits (too few points, bad starting periods, …).
-pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
+/// [`PipelineError`] for failed fits (too few points, bad starting periods, …), priors
+/// that do not fit the model, or failed derivations.
+pub fn analyse(
+    req: Request,
+    progress: &mut dyn FnMut(&Progress),
+) -> Result<Analysis, PipelineError> {
     let set = &req.set;
     let mut known = Vec::new();
-    let mut priors = vec![Prior {
-        parameter: "ecc".into(),
-        kind: "bound",
-        detail: format!("0 <= e <= {}", req.search.options.max_ecc),
-    }];
+    let mut priors = Vec::new();
+    if req.sampler.is_none() {
+        priors.push(Prior {
+            parameter: "ecc".into(),
+            kind: "bound",
+            detail: format!("0 <= e <= {}", req.search.options.max_ecc),
+            source: "default",
+        });
+    }
     for t in req.transits {
         let tc_rel = t.tc_bjd - set.epoch_bjd;
         let mut spec = start_at(set, t.period_d, &t.label)?;
@@ -273,24 +307,31 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
                     "{} d (transit period given without uncertainty)",
                     t.period_d
                 ),
+                source: "transit",
             });
         } else {
             spec.period_prior = Some((t.period_d, t.period_err_d));
-            priors.push(Prior {
-                parameter: format!("{}.period_d", t.label),
-                kind: "gaussian",
-                detail: format!("{} ± {} d (transits)", t.period_d, t.period_err_d),
-            });
+            if req.sampler.is_none() {
+                priors.push(Prior {
+                    parameter: format!("{}.period_d", t.label),
+                    kind: "gaussian",
+                    detail: format!("{} ± {} d (transits)", t.period_d, t.period_err_d),
+                    source: "transit",
+                });
+            }
         }
         // A conjunction time given without uncertainty is taken as known to 1e-5 d
         // (about a second), far better than any RV data can tell.
         let tc_sd = if t.tc_err_d > 0.0 { t.tc_err_d } else { 1e-5 };
         spec.tc_prior = Some((tc_rel, tc_sd));
-        priors.push(Prior {
-            parameter: format!("{}.tc_d", t.label),
-            kind: "gaussian",
-            detail: format!("{} ± {} BJD_TDB (transits)", t.tc_bjd, tc_sd),
-        });
+        if req.sampler.is_none() {
+            priors.push(Prior {
+                parameter: format!("{}.tc_d", t.label),
+                kind: "gaussian",
+                detail: format!("{} ± {} BJD_TDB (transits)", t.tc_bjd, tc_sd),
+                source: "transit",
+            });
+        }
         known.push(spec);
     }
     for &p in &req.periods {
@@ -301,38 +342,76 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
                 parameter: format!("{}.period_d", spec.label),
                 kind: "fixed",
                 detail: format!("{p} d (held fixed on request)"),
+                source: "request",
             });
         }
         known.push(spec);
     }
     let search = fit::search(set, &known, &req.search)?;
+    let signals = fit::signal_tests(set, &search, known.len())?;
+
+    let posterior = match &req.sampler {
+        None => None,
+        Some(settings) => {
+            let fit = &search.fit;
+            let range = (
+                req.search.period_min_d,
+                req.search.period_max_d.unwrap_or(set.baseline_d()),
+            );
+            let mut prior_set = PriorSet::defaults(set, fit, range);
+            let warnings = prior_set.apply(&req.priors, &fit.layout, &set.instruments)?;
+            let mut post = sample::sample(set, fit, prior_set, settings, req.draws, progress)?;
+            post.warnings.extend(warnings);
+            priors.extend(post.priors.entries.iter().flatten().map(|e| Prior {
+                parameter: e.parameter.clone(),
+                kind: e.prior.kind(),
+                detail: e.prior.describe(),
+                source: e.source,
+            }));
+            Some(post)
+        }
+    };
 
     let mut rng = ChaCha8Rng::seed_from_u64(req.seed);
-    let mut derived = vec![None; search.fit.planets.len()];
-    let mut profiles = vec![None; search.fit.planets.len()];
+    let n_planets = search.fit.planets.len();
+    let mut derived = vec![None; n_planets];
+    let mut profiles = vec![None; n_planets];
     let mut system = SystemReport::default();
-    let mut orbits = Vec::new();
     if let Some(star) = req.star {
-        let elements = search.fit.element_draws(req.draws, &mut rng);
-        let star_draws = StarDraws::sample(star, req.draws, &mut rng)?;
-        for (i, (el, planet)) in elements.iter().zip(&search.fit.planets).enumerate() {
-            let orbit = OrbitDraws {
-                period_d: el.iter().map(|x| x.0).collect(),
-                k_mps: el.iter().map(|x| x.1).collect(),
-                ecc: el.iter().map(|x| x.2).collect(),
-            };
+        let orbits: Vec<OrbitDraws> = match &posterior {
+            Some(post) => (0..n_planets).map(|i| post.orbit_draws(i)).collect(),
+            None => search
+                .fit
+                .element_draws(req.draws, &mut rng)
+                .iter()
+                .map(|el| OrbitDraws {
+                    period_d: el.iter().map(|x| x.0).collect(),
+                    k_mps: el.iter().map(|x| x.1).collect(),
+                    ecc: el.iter().map(|x| x.2).collect(),
+                })
+                .collect(),
+        };
+        let n = orbits.first().map_or(req.draws, |o| o.period_d.len());
+        let star_draws = StarDraws::sample(star, n, &mut rng)?;
+        for (i, (orbit, planet)) in orbits.iter().zip(&search.fit.planets).enumerate() {
             let transit = req.transits.iter().find(|t| t.label == planet.label);
             let transit_draws = match transit {
-                Some(t) => Some(TransitDraws::sample(t, req.draws, &mut rng)?),
+                Some(t) => Some(TransitDraws::sample(t, n, &mut rng)?),
                 None => None,
             };
-            let d = derive::derive_planet(&orbit, &star_draws, transit_draws.as_ref())?;
+            let mut d = derive::derive_planet(orbit, &star_draws, transit_draws.as_ref())?;
+            if posterior
+                .as_ref()
+                .is_some_and(|p| p.detections[i].quote_upper_limits)
+            {
+                d = d.with_upper_limits();
+            }
             if let (Some(t), Some(td)) = (transit, &transit_draws)
                 && d.radius_rearth.is_some()
             {
                 let inputs = ProfileInputs {
                     planet: &d,
-                    orbit: &orbit,
+                    orbit,
                     star_draws: &star_draws,
                     transit_draws: td,
                     star,
@@ -342,7 +421,6 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
                 profiles[i] = Some(density_profile(&inputs, &mut rng)?);
             }
             derived[i] = Some(d);
-            orbits.push(orbit);
         }
         system = system_report(&search.fit, set, star, &derived, &orbits);
     }
@@ -350,6 +428,8 @@ pub fn analyse(req: Request) -> Result<Analysis, PipelineError> {
         name: req.name,
         set: req.set.clone(),
         search,
+        signals,
+        posterior,
         derived,
         profiles,
         system,

@@ -1,11 +1,13 @@
 //! The target file (TOML): the star, the RV data files, known transits and analysis
 //! settings, turned into a typed [`Target`] by [`load`]. Unknown keys are errors.
 
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
 
 use crate::data::{DataSpec, RvUnit, TimeStandard};
+use crate::sample::Prior;
 
 /// Everything a run needs to know about one star.
 #[derive(Clone, Debug, PartialEq)]
@@ -22,6 +24,39 @@ pub struct Target {
     pub transits: Vec<Transit>,
     /// Analysis settings.
     pub settings: Settings,
+    /// Priors chosen in the target file (the rest keep their defaults).
+    pub priors: PriorChoices,
+}
+
+/// Priors set in the target file's `[priors]` table, by planet label and instrument name.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct PriorChoices {
+    /// Per planet label.
+    pub planets: BTreeMap<String, PlanetPriors>,
+    /// Per instrument name.
+    pub instruments: BTreeMap<String, InstrumentPriors>,
+}
+
+/// Priors of one planet's physical elements.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct PlanetPriors {
+    /// Period, days.
+    pub period_d: Option<Prior>,
+    /// Semi-amplitude, m/s.
+    pub k_mps: Option<Prior>,
+    /// Eccentricity (ω is always uniform).
+    pub ecc: Option<Prior>,
+    /// Conjunction time, full BJD_TDB.
+    pub tc_bjd: Option<Prior>,
+}
+
+/// Priors of one instrument's offset and jitter.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct InstrumentPriors {
+    /// Offset, m/s.
+    pub offset_mps: Option<Prior>,
+    /// Jitter, m/s.
+    pub jitter_mps: Option<Prior>,
 }
 
 /// Stellar parameters with 1σ uncertainties.
@@ -55,6 +90,25 @@ pub struct Star {
     pub distance_pc: Option<f64>,
     /// Total proper motion, milliarcseconds per year.
     pub pm_mas_per_yr: Option<f64>,
+}
+
+impl Star {
+    /// A star known only by its mass (solar masses) and its 1σ uncertainty.
+    pub fn from_mass(mass_msun: f64, mass_err_msun: f64) -> Star {
+        Star {
+            mass_msun,
+            mass_err_msun,
+            radius_rsun: None,
+            radius_err_rsun: 0.0,
+            teff_k: None,
+            teff_err_k: 0.0,
+            age_gyr: None,
+            density_gcc: None,
+            density_err_gcc: 0.0,
+            distance_pc: None,
+            pm_mas_per_yr: None,
+        }
+    }
 }
 
 /// A planet's transit constraints (times in the declared standard, converted on load).
@@ -116,7 +170,7 @@ pub struct Settings {
     /// Polynomial trend order: 0 none, 1 linear, 2 quadratic (default 1).
     pub trend: usize,
     /// Monte Carlo draws used to propagate uncertainties into derived quantities
-    /// (default 20 000).
+    /// (default 20 000); with sampling, at most this many posterior draws are kept.
     pub draws: usize,
     /// Bond albedo for equilibrium temperatures (default 0.3).
     pub albedo: f64,
@@ -124,6 +178,21 @@ pub struct Settings {
     pub escape_efficiency: f64,
     /// XUV flux at each planet, W/m², overriding the estimate from the star's age.
     pub xuv_flux_wm2: Option<f64>,
+    /// Sample the posterior (default false: the maximum-likelihood fit with curvature
+    /// errors, which takes seconds where sampling a multi-planet model takes minutes).
+    pub sample: bool,
+    /// Independent ensembles compared by R̂ (default 2, at least 2).
+    pub ensembles: usize,
+    /// Walkers per ensemble (default 0 = automatic, 2 × parameters + 2, at least 16).
+    pub walkers: usize,
+    /// Required chain length in autocorrelation times (default 50).
+    pub min_tau_multiple: f64,
+    /// Required bound on R̂ (default 1.01).
+    pub max_rhat: f64,
+    /// Step limit of the sampler (default 200 000).
+    pub max_steps: usize,
+    /// Also write the draws as CSV beside the Parquet file (default false).
+    pub draws_csv: bool,
 }
 
 impl Default for Settings {
@@ -141,6 +210,28 @@ impl Default for Settings {
             albedo: crate::derive::atmosphere::DEFAULT_ALBEDO,
             escape_efficiency: crate::derive::atmosphere::DEFAULT_ESCAPE_EFFICIENCY,
             xuv_flux_wm2: None,
+            sample: false,
+            ensembles: 2,
+            walkers: 0,
+            min_tau_multiple: 50.0,
+            max_rhat: 1.01,
+            max_steps: 200_000,
+            draws_csv: false,
+        }
+    }
+}
+
+impl Settings {
+    /// The sampler settings these choose.
+    pub fn sampler(&self) -> crate::sample::SamplerSettings {
+        crate::sample::SamplerSettings {
+            ensembles: self.ensembles,
+            walkers: self.walkers,
+            min_tau_multiple: self.min_tau_multiple,
+            max_rhat: self.max_rhat,
+            max_steps: self.max_steps,
+            seed: self.seed,
+            ..crate::sample::SamplerSettings::default()
         }
     }
 }
@@ -186,6 +277,74 @@ struct RawTarget {
     transit: Vec<RawTransit>,
     #[serde(default)]
     settings: Settings,
+    #[serde(default)]
+    priors: RawPriors,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawPriors {
+    #[serde(default)]
+    planet: BTreeMap<String, RawPlanetPriors>,
+    #[serde(default)]
+    instrument: BTreeMap<String, RawInstrumentPriors>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPlanetPriors {
+    period_d: Option<RawPrior>,
+    k_mps: Option<RawPrior>,
+    ecc: Option<RawPrior>,
+    tc_bjd: Option<RawPrior>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawInstrumentPriors {
+    offset_mps: Option<RawPrior>,
+    jitter_mps: Option<RawPrior>,
+}
+
+/// One prior as written: exactly one of `uniform = [lo, hi]`, `log_uniform = [lo, hi]`,
+/// `gaussian = [mean, sd]` (with optional `bounds = [lo, hi]`).
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPrior {
+    uniform: Option<[f64; 2]>,
+    log_uniform: Option<[f64; 2]>,
+    gaussian: Option<[f64; 2]>,
+    bounds: Option<[f64; 2]>,
+}
+
+impl RawPrior {
+    /// The prior, checked against the quantity's physical range `[min, max]` (a
+    /// Gaussian without `bounds` reaches 10 sd each side, cut at that range).
+    fn build(&self, min: f64, max: f64) -> Result<Prior, String> {
+        if self.bounds.is_some() && self.gaussian.is_none() {
+            return Err("`bounds` goes with `gaussian` only".into());
+        }
+        let prior = match (self.uniform, self.log_uniform, self.gaussian) {
+            (Some([lo, hi]), None, None) => Prior::uniform(lo, hi),
+            (None, Some([lo, hi]), None) => Prior::log_uniform(lo, hi),
+            (None, None, Some([mean, sd])) => match self.bounds {
+                Some([lo, hi]) => Prior::gaussian(mean, sd, Some((lo, hi))),
+                None => Prior::gaussian(mean, sd, None).and_then(|p| {
+                    let (lo, hi) = p.clipped(min, max).bounds();
+                    Prior::gaussian(mean, sd, Some((lo, hi)))
+                }),
+            },
+            _ => {
+                return Err(
+                    "give exactly one of uniform = [lo, hi], log_uniform = [lo, hi], gaussian = [mean, sd]"
+                        .into(),
+                );
+            }
+        };
+        prior
+            .and_then(|p| p.within(min, max))
+            .map_err(|e| e.to_string())
+    }
 }
 
 #[derive(Deserialize)]
@@ -227,6 +386,47 @@ struct RawTransit {
     duration_h: Option<f64>,
     #[serde(default)]
     duration_err_h: f64,
+}
+
+/// The `[priors]` table checked against each quantity's physical range.
+fn prior_choices(
+    raw: RawPriors,
+    invalid: &dyn Fn(&str, String) -> TargetError,
+) -> Result<PriorChoices, TargetError> {
+    let one = |key: String, p: &Option<RawPrior>, min: f64, max: f64| match p {
+        None => Ok(None),
+        Some(p) => p.build(min, max).map(Some).map_err(|m| invalid(&key, m)),
+    };
+    let mut choices = PriorChoices::default();
+    for (label, p) in raw.planet {
+        let key = |k: &str| format!("priors.planet.{label}.{k}");
+        let planet = PlanetPriors {
+            period_d: one(
+                key("period_d"),
+                &p.period_d,
+                f64::MIN_POSITIVE,
+                f64::INFINITY,
+            )?,
+            k_mps: one(key("k_mps"), &p.k_mps, 0.0, f64::INFINITY)?,
+            ecc: one(key("ecc"), &p.ecc, 0.0, crate::sample::posterior::ECC_LIMIT)?,
+            tc_bjd: one(key("tc_bjd"), &p.tc_bjd, 2_000_000.0, f64::INFINITY)?,
+        };
+        choices.planets.insert(label, planet);
+    }
+    for (name, p) in raw.instrument {
+        let key = |k: &str| format!("priors.instrument.{name}.{k}");
+        let inst = InstrumentPriors {
+            offset_mps: one(
+                key("offset_mps"),
+                &p.offset_mps,
+                f64::NEG_INFINITY,
+                f64::INFINITY,
+            )?,
+            jitter_mps: one(key("jitter_mps"), &p.jitter_mps, 0.0, f64::INFINITY)?,
+        };
+        choices.instruments.insert(name, inst);
+    }
+    Ok(choices)
 }
 
 /// Reads and checks a target file; data paths are resolved relative to its folder.
@@ -452,6 +652,41 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         ));
     }
 
+    if s.ensembles < 2 {
+        return Err(invalid(
+            "settings.ensembles",
+            format!("R̂ needs at least 2 ensembles, got {}", s.ensembles),
+        ));
+    }
+    if s.walkers != 0 && (s.walkers < 4 || s.walkers % 2 == 1) {
+        return Err(invalid(
+            "settings.walkers",
+            format!(
+                "must be 0 (automatic) or an even number ≥ 4, got {}",
+                s.walkers
+            ),
+        ));
+    }
+    if !(s.min_tau_multiple.is_finite() && s.min_tau_multiple >= 1.0) {
+        return Err(invalid(
+            "settings.min_tau_multiple",
+            format!("must be at least 1, got {}", s.min_tau_multiple),
+        ));
+    }
+    if !(s.max_rhat.is_finite() && s.max_rhat > 1.0) {
+        return Err(invalid(
+            "settings.max_rhat",
+            format!("must be above 1, got {}", s.max_rhat),
+        ));
+    }
+    if s.max_steps < 1000 {
+        return Err(invalid(
+            "settings.max_steps",
+            format!("need at least 1000, got {}", s.max_steps),
+        ));
+    }
+
+    let priors = prior_choices(raw.priors, &invalid)?;
     Ok(Target {
         name: raw.name,
         path: path.to_path_buf(),
@@ -459,5 +694,6 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         data,
         transits,
         settings: raw.settings,
+        priors,
     })
 }

@@ -366,3 +366,91 @@ fn bad_inputs_exit_2_with_a_clear_message() {
     assert_eq!(out.status.code(), Some(2));
     assert!(stderr(&out).contains("fmax"), "{}", stderr(&out));
 }
+
+/// `--sample`: values from posterior draws and a `diagnostics` block (design.md); the
+/// same seed gives the same JSON.
+#[test]
+fn fit_sample_adds_diagnostics() {
+    let args = [
+        "fit",
+        &repo("tests/reference/twobody/one_planet.csv"),
+        "--period",
+        "12.3047",
+        "--planets",
+        "1",
+        "--trend",
+        "0",
+        "--mstar-msun",
+        "1.0",
+        "--mstar-err",
+        "0.05",
+        "--sample",
+        "--seed",
+        "3",
+        "--json",
+    ];
+    let out = heft(&args);
+    let doc = json_of(&out);
+    let d = &doc["diagnostics"];
+    assert_eq!(d["converged"], true, "{}", d["reason"]);
+    for p in d["parameters"].as_array().unwrap() {
+        assert!(p["tau_steps"].as_f64().unwrap() > 0.0);
+        assert!(p["rhat"].as_f64().unwrap() < 1.01);
+        assert!(p["ess"].as_f64().unwrap() > 0.0);
+    }
+    let planet = &doc["planets"][0];
+    assert!(is_estimate(&planet["k_mps"]) && is_estimate(&planet["msini_mearth"]));
+    assert!(planet["significance"]["delta_lnl"].as_f64().unwrap() > 0.0);
+    assert!(planet["detection"]["k_over_sigma"].as_f64().unwrap() > 3.0);
+    let priors = doc["priors"].as_array().unwrap();
+    assert!(
+        priors
+            .iter()
+            .any(|p| p["parameter"] == "b.k_mps" && p["kind"] == "uniform")
+    );
+    assert_eq!(doc, json_of(&heft(&args)), "same seed, same results");
+}
+
+/// `heft run` with `sample = true` writes the draws (Parquet, CSV on request) and the
+/// corner plot beside results.json.
+#[test]
+fn run_with_sampling_writes_draws() {
+    let dir = tempfile::tempdir().unwrap();
+    let target = write(
+        dir.path(),
+        "t.toml",
+        &format!(
+            "name = \"t\"\n[star]\nmass_msun = 1.0\nmass_err_msun = 0.05\n[[data]]\nfile = \"{}\"\n[settings]\ntrend = 0\nmax_signals = 1\nsample = true\ndraws = 2000\ndraws_csv = true\n",
+            repo("tests/reference/twobody/one_planet.csv")
+        ),
+    );
+    let out_dir = dir.path().join("run");
+    let out = heft(&[
+        "run",
+        target.to_str().unwrap(),
+        "--out",
+        out_dir.to_str().unwrap(),
+        "--json",
+    ]);
+    let doc = json_of(&out);
+    assert!(doc["diagnostics"]["converged"].as_bool().unwrap());
+    let csv = std::fs::read_to_string(out_dir.join("draws.csv")).unwrap();
+    let header = csv.lines().next().unwrap();
+    assert!(
+        header.starts_with("ensemble,walker,step,ln_posterior,b.period_d,b.k_mps"),
+        "{header}"
+    );
+    assert!(header.contains("b.msini_mearth"));
+    assert_eq!(
+        csv.lines().count() - 1,
+        doc["posterior"]["n_draws"].as_u64().unwrap() as usize
+    );
+    let parquet = std::fs::read(out_dir.join("draws.parquet")).unwrap();
+    assert_eq!(
+        &parquet[..4],
+        b"PAR1",
+        "Parquet magic number (Apache Parquet format spec)"
+    );
+    let svg = std::fs::read_to_string(out_dir.join("corner.svg")).unwrap();
+    assert!(svg.starts_with("<svg") && svg.contains("b.k_mps"));
+}

@@ -288,19 +288,7 @@ fn monte_carlo_density_error_matches_first_order_propagation() {
     // sigma_m/m ~ (2/3) sigma_M*/M*. Here sigma_M*/M* = 3 %, sigma_R/R = 1 %.
     let n = 200_000;
     let mut rng = ChaCha8Rng::seed_from_u64(2024);
-    let star = Star {
-        mass_msun: 1.0,
-        mass_err_msun: 0.03,
-        radius_rsun: None,
-        radius_err_rsun: 0.0,
-        teff_k: None,
-        teff_err_k: 0.0,
-        age_gyr: None,
-        density_gcc: None,
-        density_err_gcc: 0.0,
-        distance_pc: None,
-        pm_mas_per_yr: None,
-    };
+    let star = Star::from_mass(1.0, 0.03);
     let star = StarDraws::sample(&star, n, &mut rng).unwrap();
     let radius =
         truncated_normal_draws("radius_rearth", 2.0, 0.02, Support::POSITIVE, n, &mut rng).unwrap();

@@ -35,7 +35,11 @@ pub struct FitArgs {
     /// 1σ uncertainty of the stellar mass, solar masses.
     #[arg(long, requires = "mstar_msun", default_value_t = 0.0)]
     mstar_err: f64,
-    /// Seed of the Monte Carlo draws.
+    /// Sample the posterior (values and errors from posterior draws, with convergence
+    /// diagnostics; exit status 3 if it does not converge).
+    #[arg(long)]
+    sample: bool,
+    /// Seed of the sampler and the Monte Carlo draws.
     #[arg(long, default_value_t = 1)]
     seed: u64,
     /// Print results as JSON (schema heft-results/1).
@@ -52,19 +56,7 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
                 "--mstar-msun must be positive, got {m}"
             )));
         }
-        Some(m) => Some(Star {
-            mass_msun: m,
-            mass_err_msun: args.mstar_err.max(0.0),
-            radius_rsun: None,
-            radius_err_rsun: 0.0,
-            teff_k: None,
-            teff_err_k: 0.0,
-            age_gyr: None,
-            density_gcc: None,
-            density_err_gcc: 0.0,
-            distance_pc: None,
-            pm_mas_per_yr: None,
-        }),
+        Some(m) => Some(Star::from_mass(m, args.mstar_err.max(0.0))),
         None => None,
     };
     if let Some(p) = args.periods.iter().find(|p| !(p.is_finite() && **p > 0.0)) {
@@ -110,7 +102,18 @@ pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
         seed: args.seed,
         draws: defaults.draws,
         profile: pipeline::profile_settings(&defaults),
+        sampler: args.sample.then(|| {
+            Settings {
+                seed: args.seed,
+                ..defaults.clone()
+            }
+            .sampler()
+        }),
+        priors: Default::default(),
     };
-    let analysis = pipeline::analyse(request).map_err(|e| Failure::Input(e.into()))?;
+    let (bar, mut progress) = super::sampler_progress();
+    let analysis = pipeline::analyse(request, &mut progress);
+    bar.finish_and_clear();
+    let analysis = analysis.map_err(|e| Failure::Input(e.into()))?;
     print_results(&analysis, args.json)
 }

@@ -46,7 +46,35 @@ pub enum Failure {
     Internal(anyhow::Error),
 }
 
-/// Prints an analysis as JSON or as the text summary.
+/// A progress display for the sampler: a bar on stderr when stderr is a terminal,
+/// nothing otherwise. The returned closure is handed to the pipeline.
+pub fn sampler_progress() -> (indicatif::ProgressBar, impl FnMut(&heft::sample::Progress)) {
+    use std::io::IsTerminal;
+    let bar = if std::io::stderr().is_terminal() {
+        let bar = indicatif::ProgressBar::new(0);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template(
+                "sampling {bar:30} {pos}/{len} steps {msg} [{elapsed}]",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        bar
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    let handle = bar.clone();
+    let update = move |p: &heft::sample::Progress| {
+        handle.set_length(p.max_steps as u64);
+        handle.set_position(p.step as u64);
+        if let (Some(t), Some(r)) = (p.tau_multiple, p.max_rhat) {
+            handle.set_message(format!("chain {t:.0} τ, max R̂ {r:.3}"));
+        }
+    };
+    (bar, update)
+}
+
+/// Prints an analysis as JSON or as the text summary. Exit status 3 when the sampler ran
+/// and did not converge (the results are printed all the same).
 pub fn print_results(analysis: &heft::pipeline::Analysis, json: bool) -> Result<ExitCode, Failure> {
     let text = if json {
         let doc = heft::report::results_json(analysis);
@@ -61,7 +89,13 @@ pub fn print_results(analysis: &heft::pipeline::Analysis, json: bool) -> Result<
         .lock()
         .write_all(text.as_bytes())
         .map_err(|e| Failure::Internal(e.into()))?;
-    Ok(ExitCode::SUCCESS)
+    match &analysis.posterior {
+        Some(p) if !p.chains.diagnostics.converged => {
+            eprintln!("warning: the sampler {}", p.chains.diagnostics.reason);
+            Ok(ExitCode::from(3))
+        }
+        _ => Ok(ExitCode::SUCCESS),
+    }
 }
 
 /// Entry point of the binary.

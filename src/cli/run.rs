@@ -24,7 +24,10 @@ pub struct RunArgs {
 
 /// Runs the command.
 pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
-    let done = runs::execute(&args.target, args.out.as_deref()).map_err(|e| {
+    let (bar, mut progress) = super::sampler_progress();
+    let done = runs::execute(&args.target, args.out.as_deref(), &mut progress);
+    bar.finish_and_clear();
+    let done = done.map_err(|e| {
         if e.is_input() {
             Failure::Input(e.into())
         } else {

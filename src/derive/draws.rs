@@ -433,17 +433,11 @@ mod tests {
     fn stellar_density_couples_mass_and_radius() {
         assert!((stellar_density_gcc(1.0, 1.0) - 1.41).abs() < 0.01);
         let star = Star {
-            mass_msun: 1.0,
-            mass_err_msun: 0.1,
             radius_rsun: Some(1.0),
             radius_err_rsun: 0.1,
-            teff_k: None,
-            teff_err_k: 0.0,
-            age_gyr: None,
             density_gcc: Some(1.41),
             density_err_gcc: 0.03,
-            distance_pc: None,
-            pm_mas_per_yr: None,
+            ..Star::from_mass(1.0, 0.1)
         };
         let mut rng = ChaCha8Rng::seed_from_u64(3);
         let d = StarDraws::sample(&star, 4000, &mut rng).unwrap();

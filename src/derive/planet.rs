@@ -91,6 +91,20 @@ impl PlanetDerived {
     pub fn n_draws(&self) -> usize {
         self.draws.msini_mearth.len()
     }
+
+    /// Adds the 95th and 99th percentiles of the draws as upper limits to m sin i and the
+    /// mass (for a signal not significantly detected).
+    pub fn with_upper_limits(mut self) -> PlanetDerived {
+        let to_mjup = |v: &[f64]| -> Vec<f64> { v.iter().map(|m| m / MJUP_IN_MEARTH).collect() };
+        let msini = &self.draws.msini_mearth;
+        self.msini_mearth = self.msini_mearth.with_upper_limits(msini);
+        self.msini_mjup = self.msini_mjup.with_upper_limits(&to_mjup(msini));
+        if let Some(m) = &self.draws.mass_mearth {
+            self.mass_mearth = self.mass_mearth.map(|s| s.with_upper_limits(m));
+            self.mass_mjup = self.mass_mjup.map(|s| s.with_upper_limits(&to_mjup(m)));
+        }
+        self
+    }
 }
 
 /// Derives the planet from draws of its orbit, its star and (optionally) its transit.
@@ -370,17 +384,9 @@ pub fn calculate(query: &MassQuery, draws: usize, seed: u64) -> Result<PlanetDer
         _ => (None, 0.0),
     };
     let star = Star {
-        mass_msun: query.mstar_msun,
-        mass_err_msun: query.mstar_err_msun,
         radius_rsun: rstar,
         radius_err_rsun: rstar_err,
-        teff_k: None,
-        teff_err_k: 0.0,
-        age_gyr: None,
-        density_gcc: None,
-        density_err_gcc: 0.0,
-        distance_pc: None,
-        pm_mas_per_yr: None,
+        ..Star::from_mass(query.mstar_msun, query.mstar_err_msun)
     };
     let star = StarDraws::sample(&star, n, &mut rng)?;
     let radius = match query.radius {

@@ -8,9 +8,13 @@ mod layout;
 mod objective;
 mod optimize;
 mod search;
+mod significance;
 
 pub use layout::{Layout, PlanetSpec, Role};
 pub use search::{Search, SearchSettings, SearchStep, SignalCount, next_label, search};
+pub use significance::{
+    EccentricityTest, LUCY_SWEENEY_LEVEL, SignalTest, lucy_sweeney_p, signal_tests,
+};
 
 use nalgebra::{DMatrix, DVector, SymmetricEigen};
 use rand::Rng;

@@ -35,7 +35,8 @@ fn e_minus_sin_e(x: f64) -> f64 {
 /// The mean anomaly is reduced to [0, π] (the equation is odd and 2π-periodic in `M`);
 /// the starting value `E0 = M + 0.85 e` (Danby 1987, Celest. Mech. 40, 303) is refined by
 /// the quartically convergent iteration of Danby & Burkardt (1983, Celest. Mech. 31, 95)
-/// until the correction is at the level of rounding, with a bisection fallback that can
+/// until the correction is at the level of rounding (or below 1e-5 where 1 − e cos E
+/// exceeds 0.2, after which the next correction would be below rounding), with a bisection fallback that can
 /// never fail because `E - e sin E` is monotonic.
 ///
 /// # Panics
@@ -56,7 +57,13 @@ pub fn eccentric_anomaly(mean_anom: f64, ecc: f64) -> f64 {
     let mut e_anom = (m + 0.85 * ecc).min(PI);
     for _ in 0..12 {
         let (s, c) = e_anom.sin_cos();
-        let f = residual(e_anom, ecc, m);
+        // The residual in the form of [`residual`], reusing sin E where the series is
+        // not needed.
+        let f = if e_anom >= 0.25 {
+            (1.0 - ecc) * e_anom + ecc * (e_anom - s) - m
+        } else {
+            residual(e_anom, ecc, m)
+        };
         let f1 = 1.0 - ecc * c;
         let f2 = ecc * s;
         let f3 = ecc * c;
@@ -64,7 +71,11 @@ pub fn eccentric_anomaly(mean_anom: f64, ecc: f64) -> f64 {
         let d2 = -f / (f1 + 0.5 * d1 * f2);
         let d3 = -f / (f1 + 0.5 * d2 * f2 + d2 * d2 * f3 / 6.0);
         e_anom = (e_anom + d3).clamp(0.0, PI);
-        if d3.abs() <= 4.0 * f64::EPSILON * e_anom.max(1e-300) {
+        // Quartic convergence: after a step below 1e-5 (away from the near-parabolic
+        // corner, where f' = 1 − e cos E is small) the next one would be below rounding.
+        let done =
+            d3.abs() <= 4.0 * f64::EPSILON * e_anom.max(1e-300) || (d3.abs() < 1e-5 && f1 > 0.2);
+        if done {
             return base + sign * e_anom;
         }
     }

@@ -5,6 +5,7 @@ use serde_json::{Value, json};
 
 use crate::fit::Fit;
 use crate::pipeline::Analysis;
+use crate::sample::Posterior;
 
 /// Schema tag of every results file.
 pub const SCHEMA: &str = "heft-results/1";
@@ -23,14 +24,27 @@ fn fit_block(fit: &Fit) -> Value {
     })
 }
 
-/// The whole results document.
+/// The `posterior` block: how the values were obtained from the draws.
+fn posterior_block(p: &Posterior) -> Value {
+    json!({
+        "method": "affine-invariant ensemble sampler (Goodman & Weare 2010 stretch move)",
+        "values": "median and 15.87/84.13 percentiles of the posterior draws",
+        "modes": "the mode of the maximum-likelihood fit only; independent ensembles started from its curvature Gaussian",
+        "n_draws": p.theta.len(),
+    })
+}
+
+/// The whole results document. With posterior draws, planets, instruments and trend come
+/// from the draws, and `posterior` and `diagnostics` are added.
 pub fn results_json(a: &Analysis) -> Value {
     let fit = &a.search.fit;
-    let planets: Vec<Value> = fit
-        .planets
+    let post = a.posterior.as_ref();
+    let estimates = post.map_or(&fit.planets, |p| &p.planets);
+    let planets: Vec<Value> = estimates
         .iter()
         .zip(a.derived.iter().zip(&a.profiles))
-        .map(|(p, (d, profile))| {
+        .enumerate()
+        .map(|(i, (p, (d, profile)))| {
             let mut v = serde_json::to_value(p).unwrap_or(Value::Null);
             for extra in [
                 d.as_ref().map(serde_json::to_value),
@@ -43,6 +57,14 @@ pub fn results_json(a: &Analysis) -> Value {
                     map.extend(extra);
                 }
             }
+            if let Value::Object(map) = &mut v {
+                if let Some(s) = a.signals.get(i) {
+                    map.insert("significance".into(), json!(s));
+                }
+                if let Some(det) = post.and_then(|p| p.detections.get(i)) {
+                    map.insert("detection".into(), json!(det));
+                }
+            }
             v
         })
         .collect();
@@ -50,7 +72,10 @@ pub fn results_json(a: &Analysis) -> Value {
     let mut trend = serde_json::Map::new();
     trend.insert("order".into(), json!(fit.options.trend));
     trend.insert("reference_bjd".into(), json!(a.set.epoch_bjd));
-    for (name, s) in trend_names.iter().zip(&fit.trend) {
+    for (name, s) in trend_names
+        .iter()
+        .zip(post.map_or(&fit.trend, |p| &p.trend))
+    {
         trend.insert((*name).into(), json!(s));
     }
     let search: Vec<Value> = a
@@ -65,7 +90,13 @@ pub fn results_json(a: &Analysis) -> Value {
         .collect();
     let mut warnings = a.set.warnings.clone();
     warnings.extend(fit.warnings.iter().cloned());
-    json!({
+    if let Some(p) = post {
+        warnings.extend(p.warnings.iter().cloned());
+        if !p.chains.diagnostics.converged {
+            warnings.push(format!("the sampler {}", p.chains.diagnostics.reason));
+        }
+    }
+    let mut doc = json!({
         "schema": SCHEMA,
         "software": {"name": "heft", "version": env!("CARGO_PKG_VERSION")},
         "target": a.name,
@@ -78,12 +109,17 @@ pub fn results_json(a: &Analysis) -> Value {
             "files": a.set.files.iter().map(|f| f.display().to_string()).collect::<Vec<_>>(),
         },
         "planets": planets,
-        "instruments": fit.instruments,
+        "instruments": post.map_or(&fit.instruments, |p| &p.instruments),
         "trend": trend,
         "fit": fit_block(fit),
         "search": search,
         "system": a.system,
         "priors": a.priors,
         "warnings": warnings,
-    })
+    });
+    if let (Some(p), Value::Object(map)) = (post, &mut doc) {
+        map.insert("posterior".into(), posterior_block(p));
+        map.insert("diagnostics".into(), json!(p.chains.diagnostics));
+    }
+    doc
 }

@@ -1,13 +1,15 @@
 //! Outputs of an analysis: `results.json` (schema `heft-results/1`), the printed summary,
-//! and the run folder they are written into.
+//! the posterior draws and their corner plot, and the run folder they are written into.
 
 mod density;
+mod draws;
 mod files;
 mod json;
 mod mass_radius;
 mod text;
 
 pub use density::density_markdown;
+pub use draws::{corner_svg, draw_columns, write_draws};
 pub use files::{create_run_dir, write_atomic};
 pub use json::{SCHEMA, results_json};
 pub use mass_radius::{PlanetCloud, mass_radius_svg};
@@ -22,7 +24,9 @@ use crate::pipeline::Analysis;
 /// `analysis` into a new run folder (see [`create_run_dir`]) and returns the folder; a
 /// run under `runs/` also becomes `LATEST`. With a periodogram report also
 /// `periodogram.svg`, `periodogram.json` (peaks, FAPs, aliases, window peaks) and
-/// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid).
+/// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid);
+/// with posterior draws also `draws.parquet` (and `draws.csv` when `draws_csv`) and
+/// `corner.svg`.
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
@@ -31,10 +35,15 @@ pub fn write_run(
     manifest: &crate::runs::Manifest,
     out: Option<&Path>,
     target_file: &Path,
+    draws_csv: bool,
 ) -> std::io::Result<PathBuf> {
     let dir = create_run_dir(out, target_file)?;
     let manifest = serde_json::to_vec_pretty(manifest).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("manifest.json"), &manifest)?;
+    write_draws(analysis, &dir, draws_csv)?;
+    if let Some(svg) = corner_svg(analysis) {
+        write_atomic(&dir.join("corner.svg"), svg.as_bytes())?;
+    }
     let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;
     if let Some(md) = density_markdown(analysis) {

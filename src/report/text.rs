@@ -110,8 +110,14 @@ pub fn summary_text(a: &Analysis) -> String {
             );
         }
     }
-    let _ = writeln!(s, "\nplanets (maximum likelihood; ± from the curvature):");
-    for ((p, d), profile) in fit.planets.iter().zip(&a.derived).zip(&a.profiles) {
+    let post = a.posterior.as_ref();
+    let heading = match post {
+        Some(_) => "posterior median, 15.87–84.13 % interval",
+        None => "maximum likelihood; ± from the curvature",
+    };
+    let _ = writeln!(s, "\nplanets ({heading}):");
+    let planets = post.map_or(&fit.planets, |p| &p.planets);
+    for (i, ((p, d), profile)) in planets.iter().zip(&a.derived).zip(&a.profiles).enumerate() {
         let _ = writeln!(
             s,
             "  {}: P = {} d, K = {} m/s, e = {}, ω = {}°, Tc = {} BJD_TDB",
@@ -128,9 +134,12 @@ pub fn summary_text(a: &Analysis) -> String {
         if let Some(pr) = profile {
             let _ = writeln!(s, "     {}", profile_line(pr));
         }
+        if let Some(line) = significance_line(a, i) {
+            let _ = writeln!(s, "     {line}");
+        }
     }
     let _ = writeln!(s, "\ninstruments:");
-    for inst in &fit.instruments {
+    for inst in post.map_or(&fit.instruments, |p| &p.instruments) {
         let _ = writeln!(
             s,
             "  {:<16} {:>4} pts  offset {} m/s  jitter {} m/s  rms {:.2} m/s",
@@ -142,7 +151,7 @@ pub fn summary_text(a: &Analysis) -> String {
         );
     }
     let units = ["m/s/yr", "m/s/yr²"];
-    for (t, unit) in fit.trend.iter().zip(units) {
+    for (t, unit) in post.map_or(&fit.trend, |p| &p.trend).iter().zip(units) {
         let _ = writeln!(s, "trend: {} {unit}", format_summary(t));
     }
     let _ = writeln!(
@@ -154,10 +163,52 @@ pub fn summary_text(a: &Analysis) -> String {
         fit.n_points,
         fit.n_params
     );
-    for w in a.set.warnings.iter().chain(&fit.warnings) {
+    if let Some(p) = post {
+        let d = &p.chains.diagnostics;
+        let _ = writeln!(
+            s,
+            "sampler: {} ensembles × {} walkers, {} steps ({} burn-in), acceptance {:.2}, min ESS {:.0}; {}",
+            d.ensembles, d.walkers, d.steps, d.burn_in_steps, d.acceptance, d.min_ess, d.reason
+        );
+    }
+    let extra = post.map(|p| p.warnings.as_slice()).unwrap_or_default();
+    for w in a.set.warnings.iter().chain(&fit.warnings).chain(extra) {
         let _ = writeln!(s, "warning: {w}");
     }
     s
+}
+
+/// Significance of planet `i`: ΔlnL against the model without it, FAP, K/σ_K with the
+/// upper limits to quote, and the eccentricity test.
+fn significance_line(a: &Analysis, i: usize) -> Option<String> {
+    let t = a.signals.get(i)?;
+    let mut parts = vec![format!("ΔlnL vs no planet = {:.1}", t.delta_lnl)];
+    if let Some(fap) = t.fap {
+        parts.push(format!("FAP {fap:.2e}"));
+    }
+    if let Some(det) = a.posterior.as_ref().and_then(|p| p.detections.get(i)) {
+        parts.push(format!("K/σ_K = {:.1}", det.k_over_sigma));
+        if det.quote_upper_limits {
+            let k = &a.posterior.as_ref()?.planets[i].k_mps;
+            parts.push(format!(
+                "not significant: quote K < {:.3} (95 %), < {:.3} m/s (99 %)",
+                k.upper95.unwrap_or(f64::NAN),
+                k.upper99.unwrap_or(f64::NAN)
+            ));
+        }
+    }
+    if let Some(e) = t.eccentricity {
+        parts.push(format!(
+            "eccentricity {} (Lucy & Sweeney p = {:.3})",
+            if e.significant {
+                "significant"
+            } else {
+                "consistent with 0"
+            },
+            e.p_circular
+        ));
+    }
+    Some(parts.join("; "))
 }
 
 #[cfg(test)]

@@ -200,7 +200,7 @@ pub fn run_batch(targets: &[PathBuf], threads: usize) -> Vec<BatchOutcome> {
     let work = || {
         targets
             .par_iter()
-            .map(|t| match execute(t, None) {
+            .map(|t| match execute(t, None, &mut |_| {}) {
                 Ok(done) => BatchOutcome {
                     target: t.clone(),
                     rows: rows_of(t, &done),

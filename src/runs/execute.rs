@@ -4,6 +4,7 @@ use std::io;
 use std::path::{Path, PathBuf};
 
 use crate::pipeline::{self, Analysis, PipelineError};
+use crate::sample::Progress;
 use crate::target::{self, TargetError};
 
 /// Why a run failed.
@@ -42,11 +43,16 @@ pub struct Completed {
     pub dir: PathBuf,
 }
 
-/// Runs `target_file` end to end into `out` (or a new folder under `runs/`).
+/// Runs `target_file` end to end into `out` (or a new folder under `runs/`); `progress`
+/// hears from the sampler.
 ///
 /// # Errors
 /// [`RunError`]; nothing earlier is overwritten in any case.
-pub fn execute(target_file: &Path, out: Option<&Path>) -> Result<Completed, RunError> {
+pub fn execute(
+    target_file: &Path,
+    out: Option<&Path>,
+    progress: &mut dyn FnMut(&Progress),
+) -> Result<Completed, RunError> {
     let target = target::load(target_file)?;
     if let Some(out) = out
         && out.exists()
@@ -57,8 +63,14 @@ pub fn execute(target_file: &Path, out: Option<&Path>) -> Result<Completed, RunE
         return Err(RunError::OutNotEmpty(out.to_path_buf()));
     }
     let manifest = super::manifest(&target).map_err(RunError::Checksum)?;
-    let analysis = pipeline::run_target(&target)?;
-    let dir = crate::report::write_run(&analysis, &manifest, out, target_file)
-        .map_err(RunError::Write)?;
+    let analysis = pipeline::run_target(&target, progress)?;
+    let dir = crate::report::write_run(
+        &analysis,
+        &manifest,
+        out,
+        target_file,
+        target.settings.draws_csv,
+    )
+    .map_err(RunError::Write)?;
     Ok(Completed { analysis, dir })
 }
