@@ -92,7 +92,12 @@ fn main() {
     let demo = std::env::args()
         .nth(1)
         .unwrap_or_else(|| "data-demo/ostrel-12.toml".into());
-    println!("heft benchmarks (dev profile: heft at opt-level 1, dependencies at 3)");
+    let profile = if cfg!(debug_assertions) {
+        "dev profile: heft at opt-level 1, dependencies at 3"
+    } else {
+        "optimised build"
+    };
+    println!("heft benchmarks ({profile})");
     println!("rayon threads: {}", rayon::current_num_threads());
     let fast = solves_per_second(&eccentric_anomaly);
     let plain = solves_per_second(&newton_from_m);
