@@ -92,6 +92,8 @@ TRANSIT_ERRORS = {"period_err_d": 0.000035, "tc_err_d": 0.00055, "rp_rs_err": 0.
 TREND_MPS_PER_YR = 0.9
 TREND_REF_BJD = 2460400.0
 
+# What the survey light curve gives the analyst: the rotation period and its 1-sigma, days.
+PHOTOMETRIC_ROTATION_D = (6.4, 0.3)
 ACTIVITY = {"amplitude_rv_mps": 2.6, "rotation_d": 6.45, "evolution_d": 30.0, "harmonic_ratio": 0.5}
 
 # Invented sites and instruments. midnight_frac: fractional JD of local mean midnight.
@@ -390,6 +392,9 @@ radius_err_rsun = {STAR['radius_err_rsun']:.2f}
 teff_k = {STAR['teff_k']:.1f}
 teff_err_k = {STAR['teff_err_k']:.1f}
 age_gyr = {STAR['age_gyr']:.1f}
+# Spot modulation in the (invented) survey light curve.
+rotation_d = {PHOTOMETRIC_ROTATION_D[0]:.1f}
+rotation_err_d = {PHOTOMETRIC_ROTATION_D[1]:.1f}
 
 # Quill: CSV, full BJD_TDB.
 [[data]]

@@ -20,6 +20,7 @@
 // `!(x > 0.0)` is deliberate throughout: it rejects NaN along with non-positive values.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
+pub mod audit;
 pub mod data;
 pub mod derive;
 pub mod fit;
@@ -31,4 +32,5 @@ pub mod report;
 pub mod runs;
 pub mod sample;
 pub mod summary;
+pub mod svg;
 pub mod target;

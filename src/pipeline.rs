@@ -8,6 +8,7 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
 
+use crate::audit::{self, Audit, AuditError, AuditSettings};
 use crate::data::{self, DataError, RvSet};
 use crate::derive::profile::{DensityProfile, ProfileInputs, ProfileSettings, density_profile};
 use crate::derive::system::{
@@ -40,6 +41,9 @@ pub enum PipelineError {
     /// The priors do not fit the model, or sampling could not start.
     #[error("sampling the posterior: {0}")]
     Sample(#[from] SampleError),
+    /// The audit could not be made.
+    #[error(transparent)]
+    Audit(#[from] AuditError),
 }
 
 /// A constraint or bound the analysis used, recorded in results.json.
@@ -186,6 +190,8 @@ pub struct Analysis {
     /// Periodogram report (RV, window, indicators, residuals after each signal); made by
     /// [`run_target`].
     pub periodograms: Option<Overview>,
+    /// Audit of every planet; made by [`run_target`] (unless switched off) and `heft audit`.
+    pub audit: Option<Audit>,
 }
 
 /// Search settings from a target file's settings.
@@ -201,6 +207,16 @@ pub fn search_settings(s: &Settings) -> SearchSettings {
             trend: s.trend,
             ..FitOptions::default()
         },
+    }
+}
+
+/// Audit settings from a target file's settings and star.
+pub fn audit_settings(s: &Settings, star: Option<&Star>) -> AuditSettings {
+    AuditSettings {
+        seed: s.seed,
+        fap_threshold: s.fap_threshold,
+        rotation_d: star.and_then(|st| st.rotation_d.map(|p| (p, st.rotation_err_d))),
+        ..AuditSettings::default()
     }
 }
 
@@ -239,6 +255,15 @@ pub fn run_target(
     };
     let mut analysis = analyse(request, progress)?;
     analysis.periodograms = Some(periodogram_report(&analysis)?);
+    if target.settings.audit && !analysis.search.fit.planets.is_empty() {
+        let ctx = audit::Context {
+            star: Some(&target.star),
+            transits: &target.transits,
+            labels: &[],
+        };
+        let settings = audit_settings(&target.settings, Some(&target.star));
+        analysis.audit = Some(audit::audit(&analysis, &ctx, &settings)?);
+    }
     Ok(analysis)
 }
 
@@ -437,6 +462,7 @@ pub fn analyse(
         seed: req.seed,
         draws: req.draws,
         periodograms: None,
+        audit: None,
     })
 }
 

@@ -90,6 +90,11 @@ pub struct Star {
     pub distance_pc: Option<f64>,
     /// Total proper motion, milliarcseconds per year.
     pub pm_mas_per_yr: Option<f64>,
+    /// Rotation period, days (e.g. from photometry): the audit tests a signal there.
+    pub rotation_d: Option<f64>,
+    /// 1σ uncertainty of the rotation period, days.
+    #[serde(default)]
+    pub rotation_err_d: f64,
 }
 
 impl Star {
@@ -107,6 +112,8 @@ impl Star {
             density_err_gcc: 0.0,
             distance_pc: None,
             pm_mas_per_yr: None,
+            rotation_d: None,
+            rotation_err_d: 0.0,
         }
     }
 }
@@ -193,6 +200,8 @@ pub struct Settings {
     pub max_steps: usize,
     /// Also write the draws as CSV beside the Parquet file (default false).
     pub draws_csv: bool,
+    /// Audit every planet (aliases, model variants, activity, jackknife; default true).
+    pub audit: bool,
 }
 
 impl Default for Settings {
@@ -217,6 +226,7 @@ impl Default for Settings {
             max_rhat: 1.01,
             max_steps: 200_000,
             draws_csv: false,
+            audit: true,
         }
     }
 }
@@ -493,12 +503,14 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         ("star.age_gyr", star.age_gyr),
         ("star.distance_pc", star.distance_pc),
         ("star.density_gcc", star.density_gcc),
+        ("star.rotation_d", star.rotation_d),
     ] {
         if let Some(v) = v {
             positive(key, v)?;
         }
     }
     non_negative("star.density_err_gcc", star.density_err_gcc)?;
+    non_negative("star.rotation_err_d", star.rotation_err_d)?;
     if let Some(pm) = star.pm_mas_per_yr {
         non_negative("star.pm_mas_per_yr", pm)?;
     }

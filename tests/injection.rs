@@ -86,7 +86,7 @@ fn check_dataset(name: &str, files: &[&str], trend: usize) {
         options: FitOptions {
             shape: OrbitShape::Eccentric,
             trend,
-            max_ecc: 0.95,
+            ..FitOptions::default()
         },
     };
     let result = fit::search(&set, &[], &settings).unwrap();

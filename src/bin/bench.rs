@@ -74,6 +74,7 @@ fn likelihood_per_second(planets: usize, n: usize) -> f64 {
         offsets_mps: vec![0.5],
         jitters_mps: vec![1.0],
         trend: vec![0.1],
+        regressors: vec![],
     };
     let start = Instant::now();
     let mut evals = 0usize;

@@ -47,73 +47,101 @@ pub struct FitArgs {
     json: bool,
 }
 
-/// Runs the command.
-pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
-    let defaults = Settings::default();
-    let star = match args.mstar_msun {
-        Some(m) if !(m.is_finite() && m > 0.0) => {
-            return Err(Failure::Input(anyhow::anyhow!(
+impl FitArgs {
+    /// The stellar mass given on the command line, if any.
+    pub fn star(&self) -> Result<Option<Star>, Failure> {
+        match self.mstar_msun {
+            Some(m) if !(m.is_finite() && m > 0.0) => Err(Failure::Input(anyhow::anyhow!(
                 "--mstar-msun must be positive, got {m}"
+            ))),
+            Some(m) => Ok(Some(Star::from_mass(m, self.mstar_err.max(0.0)))),
+            None => Ok(None),
+        }
+    }
+
+    /// The periods given with --period.
+    pub fn periods(&self) -> &[f64] {
+        &self.periods
+    }
+
+    /// Whether the JSON output was asked for.
+    pub fn json(&self) -> bool {
+        self.json
+    }
+
+    /// Seed of every random draw.
+    pub fn seed(&self) -> u64 {
+        self.seed
+    }
+
+    /// Reads the data and builds the analysis request.
+    pub fn request<'a>(&self, star: Option<&'a Star>) -> Result<Request<'a>, Failure> {
+        let defaults = Settings::default();
+        if let Some(p) = self.periods.iter().find(|p| !(p.is_finite() && **p > 0.0)) {
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--period must be positive, got {p}"
             )));
         }
-        Some(m) => Some(Star::from_mass(m, args.mstar_err.max(0.0))),
-        None => None,
-    };
-    if let Some(p) = args.periods.iter().find(|p| !(p.is_finite() && **p > 0.0)) {
-        return Err(Failure::Input(anyhow::anyhow!(
-            "--period must be positive, got {p}"
-        )));
-    }
-    let count = match args.planets {
-        Some(n) => SignalCount::Exactly(n.max(args.periods.len())),
-        None if args.periods.is_empty() => SignalCount::UpTo(defaults.max_signals),
-        None => SignalCount::UpTo(defaults.max_signals.max(args.periods.len())),
-    };
-    let set = args.input.load()?;
-    let request = Request {
-        name: args
-            .input
-            .files
-            .iter()
-            .map(|f| f.display().to_string())
-            .collect::<Vec<_>>()
-            .join(", "),
-        set,
-        star: star.as_ref(),
-        transits: &[],
-        periods: args.periods.clone(),
-        fix_periods: args.fix_period,
-        search: SearchSettings {
-            period_min_d: defaults.period_min_d,
-            period_max_d: None,
-            oversample: defaults.oversample,
-            fap_threshold: defaults.fap_threshold,
-            count,
-            options: FitOptions {
-                shape: if args.circular {
-                    OrbitShape::Circular
-                } else {
-                    OrbitShape::Eccentric
+        let count = match self.planets {
+            Some(n) => SignalCount::Exactly(n.max(self.periods.len())),
+            None => SignalCount::UpTo(defaults.max_signals.max(self.periods.len())),
+        };
+        let set = self.input.load()?;
+        Ok(Request {
+            name: self
+                .input
+                .files
+                .iter()
+                .map(|f| f.display().to_string())
+                .collect::<Vec<_>>()
+                .join(", "),
+            set,
+            star,
+            transits: &[],
+            periods: self.periods.clone(),
+            fix_periods: self.fix_period,
+            search: SearchSettings {
+                period_min_d: defaults.period_min_d,
+                period_max_d: None,
+                oversample: defaults.oversample,
+                fap_threshold: defaults.fap_threshold,
+                count,
+                options: FitOptions {
+                    shape: if self.circular {
+                        OrbitShape::Circular
+                    } else {
+                        OrbitShape::Eccentric
+                    },
+                    trend: usize::from(self.trend),
+                    ..FitOptions::default()
                 },
-                trend: usize::from(args.trend),
-                ..FitOptions::default()
             },
-        },
-        seed: args.seed,
-        draws: defaults.draws,
-        profile: pipeline::profile_settings(&defaults),
-        sampler: args.sample.then(|| {
-            Settings {
-                seed: args.seed,
-                ..defaults.clone()
-            }
-            .sampler()
-        }),
-        priors: Default::default(),
-    };
+            seed: self.seed,
+            draws: defaults.draws,
+            profile: pipeline::profile_settings(&defaults),
+            sampler: self.sample.then(|| {
+                Settings {
+                    seed: self.seed,
+                    ..defaults.clone()
+                }
+                .sampler()
+            }),
+            priors: Default::default(),
+        })
+    }
+}
+
+/// Runs the analysis of a request with a progress bar for the sampler.
+pub fn analyse(request: Request) -> Result<heft::pipeline::Analysis, Failure> {
     let (bar, mut progress) = super::sampler_progress();
     let analysis = pipeline::analyse(request, &mut progress);
     bar.finish_and_clear();
-    let analysis = analysis.map_err(|e| Failure::Input(e.into()))?;
+    analysis.map_err(|e| Failure::Input(e.into()))
+}
+
+/// Runs the command.
+pub fn run(args: &FitArgs) -> Result<ExitCode, Failure> {
+    let star = args.star()?;
+    let analysis = analyse(args.request(star.as_ref())?)?;
     print_results(&analysis, args.json)
 }

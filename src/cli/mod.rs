@@ -6,6 +6,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod audit;
 mod batch;
 mod changes;
 mod fit;
@@ -30,6 +31,9 @@ enum Command {
     Fit(fit::FitArgs),
     /// Planet mass (and density, with a radius) from P, K, e and the stellar mass.
     Mass(mass::MassArgs),
+    /// Is a claimed signal, and its mass, robust to aliases, the model, the data subset
+    /// and stellar activity?
+    Audit(audit::AuditArgs),
     /// Run the whole pipeline for a target file into a new run folder.
     Run(run::RunArgs),
     /// What changed between the latest two runs of a target.
@@ -74,7 +78,8 @@ pub fn sampler_progress() -> (indicatif::ProgressBar, impl FnMut(&heft::sample::
 }
 
 /// Prints an analysis as JSON or as the text summary. Exit status 3 when the sampler ran
-/// and did not converge (the results are printed all the same).
+/// and did not converge, else 4 when an audit ran and its verdict is not `robust` (the
+/// results are printed all the same).
 pub fn print_results(analysis: &heft::pipeline::Analysis, json: bool) -> Result<ExitCode, Failure> {
     let text = if json {
         let doc = heft::report::results_json(analysis);
@@ -89,10 +94,16 @@ pub fn print_results(analysis: &heft::pipeline::Analysis, json: bool) -> Result<
         .lock()
         .write_all(text.as_bytes())
         .map_err(|e| Failure::Internal(e.into()))?;
-    match &analysis.posterior {
-        Some(p) if !p.chains.diagnostics.converged => {
-            eprintln!("warning: the sampler {}", p.chains.diagnostics.reason);
-            Ok(ExitCode::from(3))
+    if let Some(p) = &analysis.posterior
+        && !p.chains.diagnostics.converged
+    {
+        eprintln!("warning: the sampler {}", p.chains.diagnostics.reason);
+        return Ok(ExitCode::from(3));
+    }
+    match &analysis.audit {
+        Some(a) if !a.is_robust() => {
+            eprintln!("audit verdict: {}", a.verdict);
+            Ok(ExitCode::from(4))
         }
         _ => Ok(ExitCode::SUCCESS),
     }
@@ -112,6 +123,7 @@ pub fn main() -> ExitCode {
         Command::Periodogram(args) => periodogram::run(&args),
         Command::Fit(args) => fit::run(&args),
         Command::Mass(args) => mass::run(&args),
+        Command::Audit(args) => audit::run(&args),
         Command::Run(args) => run::run(&args),
         Command::Changes(args) => changes::run(&args),
         Command::Batch(args) => batch::run(&args),

@@ -237,6 +237,21 @@ impl RvSet {
         }
     }
 
+    /// Standard deviation of indicator column `c` over the points that have a value (1 when
+    /// it is constant or missing everywhere), in the column's unit.
+    pub fn indicator_spread(&self, c: usize) -> f64 {
+        let v: Vec<f64> = self.indicators[c]
+            .values
+            .iter()
+            .copied()
+            .filter(|x| x.is_finite())
+            .collect();
+        let n = v.len().max(1) as f64;
+        let mean = v.iter().sum::<f64>() / n;
+        let sd = (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n).sqrt();
+        if sd > 0.0 { sd } else { 1.0 }
+    }
+
     /// The points at `indices`, in that order, with all per-point columns kept together.
     pub fn select(&self, indices: &[usize]) -> RvSet {
         let pick = |v: &[f64]| indices.iter().map(|&i| v[i]).collect::<Vec<f64>>();

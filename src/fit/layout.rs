@@ -3,8 +3,9 @@
 //! finite differences.
 //!
 //! Per planet θ holds `P` (unless held fixed), `K`, `e cos ω`, `e sin ω` (eccentric
-//! orbits only) and `Tc`; then one offset and one jitter per instrument; then the trend
-//! coefficients. `(e cos ω, e sin ω)` is smooth through e = 0, where ω is undefined.
+//! orbits only) and `Tc`; then one offset per instrument; one jitter per instrument (or one
+//! shared by all); the trend coefficients; and the coefficients of any activity-indicator
+//! regressors. `(e cos ω, e sin ω)` is smooth through e = 0, where ω is undefined.
 
 use crate::data::RvSet;
 use crate::model::Params;
@@ -61,6 +62,10 @@ pub struct Layout {
     pub n_instruments: usize,
     /// Trend order (0 = none).
     pub trend: usize,
+    /// One jitter shared by all instruments instead of one each.
+    pub shared_jitter: bool,
+    /// Number of indicator regressors (the first this many indicator columns of the data).
+    pub regressors: usize,
     /// Index in θ of each planet's first parameter.
     planet_start: Vec<usize>,
     /// Index of the first offset.
@@ -82,10 +87,12 @@ pub enum Role {
     Tc(usize),
     /// Offset of instrument `k`.
     Offset(usize),
-    /// Jitter of instrument `k`.
+    /// Jitter `g`: of instrument `g`, or the shared jitter (`g = 0`).
     Jitter(usize),
     /// Trend coefficient of order `k` (1-based).
     Trend(usize),
+    /// Coefficient of indicator column `c`.
+    Regressor(usize),
 }
 
 impl Layout {
@@ -108,14 +115,47 @@ impl Layout {
             shape,
             n_instruments,
             trend,
+            shared_jitter: false,
+            regressors: 0,
             planet_start,
             offsets_start: at,
         }
     }
 
+    /// The same layout with one jitter shared by all instruments.
+    pub fn with_shared_jitter(self) -> Layout {
+        Layout {
+            shared_jitter: true,
+            ..self
+        }
+    }
+
+    /// The same layout with a linear term in each of the first `n` indicator columns of
+    /// the data (see [`Params::regressors`]).
+    pub fn with_regressors(self, n: usize) -> Layout {
+        Layout {
+            regressors: n,
+            ..self
+        }
+    }
+
+    /// Number of jitter parameters.
+    pub fn n_jitters(&self) -> usize {
+        if self.shared_jitter {
+            1
+        } else {
+            self.n_instruments
+        }
+    }
+
+    /// Index of the jitter parameter (as in [`Role::Jitter`]) that instrument `k` uses.
+    pub fn jitter_of(&self, k: usize) -> usize {
+        if self.shared_jitter { 0 } else { k }
+    }
+
     /// Number of free parameters.
     pub fn len(&self) -> usize {
-        self.offsets_start + 2 * self.n_instruments + self.trend
+        self.offsets_start + self.n_instruments + self.n_jitters() + self.trend + self.regressors
     }
 
     /// True when θ is empty (never: offsets and jitters are always free).
@@ -138,8 +178,9 @@ impl Layout {
             roles.push(Role::Tc(i));
         }
         roles.extend((0..self.n_instruments).map(Role::Offset));
-        roles.extend((0..self.n_instruments).map(Role::Jitter));
+        roles.extend((0..self.n_jitters()).map(Role::Jitter));
         roles.extend((1..=self.trend).map(Role::Trend));
+        roles.extend((0..self.regressors).map(Role::Regressor));
         roles
     }
 
@@ -170,15 +211,23 @@ impl Layout {
         [period, k, ec, es, next()]
     }
 
-    /// Offsets, jitters (absolute values: the likelihood is even in s) and trend from θ.
+    /// Offsets, jitters of each instrument (absolute values: the likelihood is even in s)
+    /// and trend from θ.
     pub fn noise_and_trend(&self, theta: &[f64]) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
         let o = self.offsets_start;
         let n = self.n_instruments;
+        let j = o + n;
+        let t = j + self.n_jitters();
         (
-            theta[o..o + n].to_vec(),
-            theta[o + n..o + 2 * n].iter().map(|s| s.abs()).collect(),
-            theta[o + 2 * n..].to_vec(),
+            theta[o..j].to_vec(),
+            (0..n).map(|k| theta[j + self.jitter_of(k)].abs()).collect(),
+            theta[t..t + self.trend].to_vec(),
         )
+    }
+
+    /// Indicator coefficients from θ.
+    pub fn regressor_coefficients<'t>(&self, theta: &'t [f64]) -> &'t [f64] {
+        &theta[theta.len() - self.regressors..]
     }
 
     /// Model parameters from θ, with each eccentricity capped at `max_ecc` (the caller
@@ -196,6 +245,7 @@ impl Layout {
             offsets_mps,
             jitters_mps,
             trend,
+            regressors: self.regressor_coefficients(theta).to_vec(),
         })
     }
 
@@ -218,7 +268,8 @@ impl Layout {
         self.planet_start[i]..end
     }
 
-    /// θ from the planet specs' starting values and the given noise/trend values.
+    /// θ from the planet specs' starting values and the given noise/trend values (one
+    /// jitter per instrument: a shared jitter starts at their median); regressors start at 0.
     pub fn initial(&self, offsets: &[f64], jitters: &[f64], trend: &[f64]) -> Vec<f64> {
         let mut theta = Vec::with_capacity(self.len());
         for p in &self.planets {
@@ -233,8 +284,15 @@ impl Layout {
             theta.push(p.tc_d);
         }
         theta.extend_from_slice(offsets);
-        theta.extend_from_slice(jitters);
+        if self.shared_jitter {
+            let mut sorted = jitters.to_vec();
+            sorted.sort_by(f64::total_cmp);
+            theta.push(sorted.get(sorted.len() / 2).copied().unwrap_or(1.0));
+        } else {
+            theta.extend_from_slice(jitters);
+        }
         theta.extend((0..self.trend).map(|k| trend.get(k).copied().unwrap_or(0.0)));
+        theta.extend(std::iter::repeat_n(0.0, self.regressors));
         theta
     }
 
@@ -254,12 +312,15 @@ impl Layout {
                 Role::ECosW(_) | Role::ESinW(_) => 0.05,
                 Role::Tc(i) => 0.01 * self.planets[i].period_d,
                 Role::Trend(k) => sigma / years.powi(k as i32),
+                Role::Regressor(c) => sigma / set.indicator_spread(c),
             })
             .collect()
     }
 
-    /// Short name of each θ entry, e.g. `b.period_d`, `offset.HARBOR`.
-    pub fn names(&self, instruments: &[String]) -> Vec<String> {
+    /// Short name of each θ entry, e.g. `b.period_d`, `offset_mps.Quill`,
+    /// `regressor.line_width` (coefficient in m/s per indicator unit).
+    pub fn names(&self, set: &RvSet) -> Vec<String> {
+        let instruments = &set.instruments;
         self.roles()
             .into_iter()
             .map(|role| match role {
@@ -269,8 +330,10 @@ impl Layout {
                 Role::ESinW(i) => format!("{}.esinw", self.planets[i].label),
                 Role::Tc(i) => format!("{}.tc_d", self.planets[i].label),
                 Role::Offset(k) => format!("offset_mps.{}", instruments[k]),
+                Role::Jitter(_) if self.shared_jitter => "jitter_mps.shared".to_string(),
                 Role::Jitter(k) => format!("jitter_mps.{}", instruments[k]),
                 Role::Trend(k) => format!("trend_mps_per_yr{k}"),
+                Role::Regressor(c) => format!("regressor.{}", set.indicators[c].name),
             })
             .collect()
     }

@@ -61,6 +61,11 @@ pub struct FitOptions {
     pub trend: usize,
     /// Eccentricity cap (default 0.95).
     pub max_ecc: f64,
+    /// One jitter shared by all instruments (default: one each).
+    pub shared_jitter: bool,
+    /// A linear term in each of the first this many indicator columns of the data
+    /// (default 0).
+    pub regressors: usize,
 }
 
 impl Default for FitOptions {
@@ -69,6 +74,8 @@ impl Default for FitOptions {
             shape: OrbitShape::Eccentric,
             trend: 1,
             max_ecc: 0.95,
+            shared_jitter: false,
+            regressors: 0,
         }
     }
 }
@@ -134,6 +141,8 @@ pub struct Fit {
     pub instruments: Vec<InstrumentEstimate>,
     /// Trend coefficients, m/s/yr^k (k = 1, 2).
     pub trend: Vec<Summary>,
+    /// Indicator coefficients, m/s per indicator unit (same order as the data's columns).
+    pub regressors: Vec<Summary>,
     /// Model options used.
     pub options: FitOptions,
     /// Findings worth showing the user.
@@ -149,6 +158,42 @@ impl Fit {
     /// Akaike information criterion `2k − 2 ln L`.
     pub fn aic(&self) -> f64 {
         2.0 * self.n_params as f64 - 2.0 * self.log_likelihood
+    }
+
+    /// Each planet's spec with its starting values at this fit's optimum (labels and
+    /// constraints kept), to start a refit where this one ended.
+    pub fn planet_specs(&self) -> Vec<PlanetSpec> {
+        (0..self.layout.planets.len())
+            .map(|i| {
+                let [p, k, ec, es, tc] = self.layout.planet_elements(&self.theta, i);
+                PlanetSpec {
+                    period_d: p,
+                    k_mps: k,
+                    ecc_vector: (ec, es),
+                    tc_d: tc,
+                    ..self.layout.planets[i].clone()
+                }
+            })
+            .collect()
+    }
+
+    /// `set` with this fit's planets (all but `keep`), trend and indicator terms removed;
+    /// the instrument offsets stay (periodograms refit them).
+    pub fn residual_set(&self, set: &RvSet, keep: Option<usize>) -> RvSet {
+        let p = &self.params;
+        let mut r = set.clone();
+        for j in 0..r.len() {
+            let t = r.time_d[j];
+            let planets: f64 = p
+                .planets
+                .iter()
+                .enumerate()
+                .filter(|&(q, _)| Some(q) != keep)
+                .map(|(_, o)| o.rv(t))
+                .sum();
+            r.rv_mps[j] -= planets + p.trend_rv(t) + p.regressors_rv(set, j);
+        }
+        r
     }
 
     /// `n` draws of θ from the Gaussian approximation `N(θ̂, C)` of the likelihood.
@@ -205,12 +250,23 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
             )));
         }
     }
-    let layout = Layout::new(
+    if options.regressors > set.indicators.len() {
+        return Err(FitError::Start(format!(
+            "{} indicator regressors asked for but the data have {} indicator columns",
+            options.regressors,
+            set.indicators.len()
+        )));
+    }
+    let mut layout = Layout::new(
         planets.to_vec(),
         options.shape,
         set.n_instruments(),
         options.trend,
-    );
+    )
+    .with_regressors(options.regressors);
+    if options.shared_jitter {
+        layout = layout.with_shared_jitter();
+    }
     if layout.len() >= set.len() {
         return Err(FitError::TooFewPoints {
             params: layout.len(),
@@ -332,7 +388,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let h: Vec<f64> = scale.iter().map(|s| 1e-3 * s).collect();
     let hess = objective::hessian(&|x: &[f64]| objective.value(x), &theta, &h);
     let mut warnings = Vec::new();
-    let covariance = invert_psd(&hess, &mut warnings, &layout.names(&set.instruments));
+    let covariance = invert_psd(&hess, &mut warnings, &layout.names(set));
     let params = layout
         .params(&theta, options.max_ecc)
         .expect("the optimum has finite parameters");
@@ -408,7 +464,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
                 .index(Role::Offset(k))
                 .expect("offsets are always free");
             let js = layout
-                .index(Role::Jitter(k))
+                .index(Role::Jitter(layout.jitter_of(k)))
                 .expect("jitters are always free");
             InstrumentEstimate {
                 name: set.instruments[k].clone(),
@@ -425,6 +481,13 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let trend = (1..=layout.trend)
         .map(|k| at(layout.index(Role::Trend(k)).expect("trend terms are free")))
         .collect();
+    let regressors = (0..layout.regressors)
+        .map(|c| {
+            at(layout
+                .index(Role::Regressor(c))
+                .expect("regressors are free"))
+        })
+        .collect();
     for (i, p) in params.planets.iter().enumerate() {
         if p.ecc() >= options.max_ecc - 1e-6 {
             warnings.push(format!(
@@ -434,7 +497,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
         }
     }
     Fit {
-        names: layout.names(&set.instruments),
+        names: layout.names(set),
         n_params: layout.len(),
         layout,
         theta,
@@ -446,6 +509,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
         planets,
         instruments,
         trend,
+        regressors,
         options: *options,
         warnings,
     }

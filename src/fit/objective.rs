@@ -73,7 +73,8 @@ impl Objective<'_> {
             let t = set.time_d[i];
             let model: f64 = curves.iter().map(|c| c[i]).sum::<f64>()
                 + params.offsets_mps[k]
-                + params.trend_rv(t);
+                + params.trend_rv(t)
+                + params.regressors_rv(set, i);
             let r = set.rv_mps[i] - model;
             let s = params.jitters_mps[k];
             let v = set.err_mps[i] * set.err_mps[i] + s * s;
@@ -86,9 +87,21 @@ impl Objective<'_> {
                     .filter(|&i| set.instrument[i] == k)
                     .map(|i| dfdm[i])
                     .sum(),
-                Role::Jitter(k) => theta[j] * dfds[k],
+                Role::Jitter(g) => {
+                    theta[j]
+                        * (0..set.n_instruments())
+                            .filter(|&k| layout.jitter_of(k) == g)
+                            .map(|k| dfds[k])
+                            .sum::<f64>()
+                }
                 Role::Trend(p) => (0..n)
                     .map(|i| dfdm[i] * (set.time_d[i] / DAYS_PER_YEAR).powi(p as i32))
+                    .sum(),
+                Role::Regressor(c) => (0..n)
+                    .map(|i| {
+                        let x = set.indicators[c].values[i];
+                        if x.is_finite() { dfdm[i] * x } else { 0.0 }
+                    })
                     .sum(),
                 _ => 0.0,
             };

@@ -82,7 +82,7 @@ pub fn search(
         SignalCount::Exactly(n) => (n, true),
     };
     loop {
-        let residual = residual_set(set, &current);
+        let residual = current.residual_set(set, None);
         let pg = periodogram::compute(&residual, &current.params.jitters_mps, &grid)?;
         let peak = pg.peaks(1, 0.0).into_iter().next();
         let wanted = planets.len() < limit;
@@ -98,30 +98,13 @@ pub fn search(
         let sine =
             periodogram::sinusoid_at(&residual, &current.params.jitters_mps, peak.frequency)?;
         let label = next_label(&planets);
-        planets.push(PlanetSpec::from_sinusoid(&sine, &label));
         // Start the known signals where the last fit left them.
-        for (i, spec) in planets.iter_mut().enumerate().take(current.planets.len()) {
-            let [p, k, ec, es, tc] = current.layout.planet_elements(&current.theta, i);
-            spec.period_d = p;
-            spec.k_mps = k;
-            spec.ecc_vector = (ec, es);
-            spec.tc_d = tc;
-        }
+        planets = current.planet_specs();
+        planets.push(PlanetSpec::from_sinusoid(&sine, &label));
         current = fit(set, &planets, &settings.options)?;
     }
     Ok(Search {
         fit: current,
         steps,
     })
-}
-
-/// The data with the fitted planets and trend removed (offsets are refitted by the
-/// periodogram).
-fn residual_set(set: &RvSet, fit: &Fit) -> RvSet {
-    let mut r = set.clone();
-    for i in 0..set.len() {
-        let t = set.time_d[i];
-        r.rv_mps[i] -= fit.params.planets_rv(t) + fit.params.trend_rv(t);
-    }
-    r
 }

@@ -69,18 +69,7 @@ pub fn signal_tests(
         .filter(|s| s.accepted)
         .filter_map(|s| s.peak.map(|p| p.fap))
         .collect();
-    let started: Vec<PlanetSpec> = (0..best.layout.planets.len())
-        .map(|i| {
-            let [p, k, ec, es, tc] = best.layout.planet_elements(&best.theta, i);
-            PlanetSpec {
-                period_d: p,
-                k_mps: k,
-                ecc_vector: (ec, es),
-                tc_d: tc,
-                ..best.layout.planets[i].clone()
-            }
-        })
-        .collect();
+    let started = best.planet_specs();
     (0..started.len())
         .map(|i| {
             let others: Vec<PlanetSpec> = started

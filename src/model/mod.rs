@@ -1,5 +1,5 @@
 //! The full RV model: planets + one offset and one jitter per instrument + a polynomial
-//! trend, and its Gaussian log-likelihood. Pure functions of [`Params`] and the data.
+//! trend + optional linear terms in activity indicators, and its Gaussian log-likelihood. Pure functions of [`Params`] and the data.
 
 use crate::data::RvSet;
 use crate::orbit::Orbit;
@@ -19,6 +19,9 @@ pub struct Params {
     /// Trend coefficients: `trend[k-1]` multiplies `(t / 1 yr)^k`, in m/s/yr^k, with `t`
     /// counted from the reference epoch. Empty for no trend.
     pub trend: Vec<f64>,
+    /// Coefficient of each of the data's first indicator columns, m/s per indicator unit
+    /// (a missing value contributes 0). Empty for none.
+    pub regressors: Vec<f64>,
 }
 
 impl Params {
@@ -35,12 +38,28 @@ impl Params {
         self.trend.iter().rev().fold(0.0, |acc, c| (acc + c) * x)
     }
 
-    /// Model RV of every point of `set` (planets + offset + trend), m/s.
+    /// Indicator terms of point `i` of `set`, m/s.
+    #[inline]
+    pub fn regressors_rv(&self, set: &RvSet, i: usize) -> f64 {
+        self.regressors
+            .iter()
+            .zip(&set.indicators)
+            .map(|(c, ind)| {
+                let x = ind.values[i];
+                if x.is_finite() { c * x } else { 0.0 }
+            })
+            .sum()
+    }
+
+    /// Model RV of every point of `set` (planets + offset + trend + indicator terms), m/s.
     pub fn predict(&self, set: &RvSet) -> Vec<f64> {
         (0..set.len())
             .map(|i| {
                 let t = set.time_d[i];
-                self.planets_rv(t) + self.offsets_mps[set.instrument[i]] + self.trend_rv(t)
+                self.planets_rv(t)
+                    + self.offsets_mps[set.instrument[i]]
+                    + self.trend_rv(t)
+                    + self.regressors_rv(set, i)
             })
             .collect()
     }
@@ -60,7 +79,11 @@ impl Params {
         for i in 0..set.len() {
             let t = set.time_d[i];
             let k = set.instrument[i];
-            let r = set.rv_mps[i] - self.planets_rv(t) - self.offsets_mps[k] - self.trend_rv(t);
+            let r = set.rv_mps[i]
+                - self.planets_rv(t)
+                - self.offsets_mps[k]
+                - self.trend_rv(t)
+                - self.regressors_rv(set, i);
             total += point_log_likelihood(r, set.err_mps[i], self.jitters_mps[k]);
         }
         total
@@ -112,6 +135,7 @@ mod tests {
             offsets_mps: vec![0.0],
             jitters_mps: vec![0.0],
             trend: vec![2.0, 0.5],
+            regressors: vec![],
         };
         let t = 2.0 * DAYS_PER_YEAR;
         assert!((p.trend_rv(t) - (2.0 * 2.0 + 0.5 * 4.0)).abs() < 1e-12);

@@ -6,6 +6,7 @@
 //! crates bring font-rendering dependencies (for text measurement) that this does not
 //! need; SVG text is laid out by the viewer.
 
+use crate::svg::xml_text;
 use std::fmt::Write as _;
 
 use super::{Grid, Overview, Periodogram};
@@ -43,13 +44,6 @@ impl Axes {
     fn y(&self, power: f64) -> f64 {
         self.top + self.height * (1.0 - power.clamp(0.0, 1.0))
     }
-}
-
-/// Escapes text for SVG.
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
 }
 
 /// The power at which the Baluev FAP of `pg` equals `level` (bisection; FAP falls with
@@ -105,7 +99,7 @@ fn panel(out: &mut String, ax: &Axes, grid: &Grid, power: &[f64], colour: &str, 
         r#"<path d="{d}" fill="none" stroke="{colour}" stroke-width="1" stroke-linejoin="round"/><text x="{:.1}" y="{:.1}" font-size="12" text-anchor="end" fill="{INK}">{}</text>"#,
         WIDTH - RIGHT - 6.0,
         ax.top + 14.0,
-        esc(label)
+        xml_text(label)
     );
     for p in [0.0, 0.5, 1.0] {
         let _ = write!(
@@ -163,7 +157,7 @@ pub fn svg(ov: &Overview, title: &str) -> String {
     let _ = write!(
         out,
         r##"<svg xmlns="http://www.w3.org/2000/svg" width="{WIDTH}" height="{height:.0}" viewBox="0 0 {WIDTH} {height:.0}" font-family="Helvetica, Arial, sans-serif"><rect width="100%" height="100%" fill="#f7f8fa"/><text x="{LEFT}" y="24" font-size="15" fill="{INK}">{}</text>"##,
-        esc(title)
+        xml_text(title)
     );
     let main = Axes {
         log_pmin,

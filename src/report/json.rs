@@ -121,5 +121,35 @@ pub fn results_json(a: &Analysis) -> Value {
         map.insert("posterior".into(), posterior_block(p));
         map.insert("diagnostics".into(), json!(p.chains.diagnostics));
     }
+    if let (Some(audit), Value::Object(map)) = (&a.audit, &mut doc) {
+        map.insert("audit".into(), json!(audit));
+    }
+    doc
+}
+
+/// The output of `heft audit --json`: the results document with the audit's `verdict`
+/// and its alias candidates at the top level (design.md contract): `aliases` lists every
+/// candidate of every audited planet (the claimed periods included), each with its
+/// `planet`, `period_d`, `delta_lnl` = ln L(alias) − ln L(claimed) and `k_mps`.
+pub fn audit_json(a: &Analysis) -> Value {
+    let mut doc = results_json(a);
+    if let (Some(audit), Value::Object(map)) = (&a.audit, &mut doc) {
+        let aliases: Vec<Value> = audit
+            .planets
+            .iter()
+            .flat_map(|pa| {
+                pa.aliases.candidates.iter().map(move |c| {
+                    let mut v = json!(c);
+                    if let Value::Object(m) = &mut v {
+                        m.insert("planet".into(), json!(pa.label));
+                        m.insert("claimed_period_d".into(), json!(pa.claimed_period_d));
+                    }
+                    v
+                })
+            })
+            .collect();
+        map.insert("verdict".into(), json!(audit.verdict));
+        map.insert("aliases".into(), Value::Array(aliases));
+    }
     doc
 }

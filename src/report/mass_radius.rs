@@ -8,6 +8,7 @@ use crate::derive::composition::zeng_rocky_radius_rearth;
 use crate::derive::constants::{G, GM_EARTH, R_EARTH, SOLAR_SYSTEM_PLANETS};
 use crate::derive::density::bulk_density_gcc;
 use crate::derive::relations::chen_kipping_radius;
+use crate::svg::xml_text;
 
 /// Plot ranges: mass (M⊕) and radius (R⊕), both on log axes.
 const MASS_RANGE: (f64, f64) = (0.3, 3000.0);
@@ -38,13 +39,6 @@ pub struct PlanetCloud<'a> {
     pub mass_mearth: &'a [f64],
     /// Radius draws, R⊕ (same length).
     pub radius_rearth: &'a [f64],
-}
-
-/// Text escaped for XML content.
-fn xml_text(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
 }
 
 fn x_of(m: f64) -> f64 {

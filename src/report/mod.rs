@@ -11,9 +11,9 @@ mod text;
 pub use density::density_markdown;
 pub use draws::{corner_svg, draw_columns, write_draws};
 pub use files::{create_run_dir, write_atomic};
-pub use json::{SCHEMA, results_json};
+pub use json::{SCHEMA, audit_json, results_json};
 pub use mass_radius::{PlanetCloud, mass_radius_svg};
-pub use text::{format_summary, summary_text};
+pub use text::{audit_text, format_summary, summary_text};
 
 use std::path::{Path, PathBuf};
 
@@ -26,7 +26,7 @@ use crate::pipeline::Analysis;
 /// `periodogram.svg`, `periodogram.json` (peaks, FAPs, aliases, window peaks) and
 /// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid);
 /// with posterior draws also `draws.parquet` (and `draws.csv` when `draws_csv`) and
-/// `corner.svg`.
+/// `corner.svg`; with an audit also `audit.svg` (mass under each model variant).
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
@@ -79,6 +79,9 @@ pub fn write_run(
         write_atomic(&dir.join("periodograms.csv"), ov.table().as_bytes())?;
         let peaks = serde_json::to_vec_pretty(&ov.to_json()).map_err(std::io::Error::other)?;
         write_atomic(&dir.join("periodogram.json"), &peaks)?;
+    }
+    if let Some(audit) = &analysis.audit {
+        write_atomic(&dir.join("audit.svg"), crate::audit::svg(audit).as_bytes())?;
     }
     // results.json last: its presence marks a complete run.
     write_atomic(&dir.join("results.json"), &json)?;

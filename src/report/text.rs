@@ -2,6 +2,7 @@
 
 use std::fmt::Write;
 
+use crate::audit::Audit;
 use crate::derive::PlanetDerived;
 use crate::derive::profile::DensityProfile;
 use crate::pipeline::Analysis;
@@ -171,10 +172,132 @@ pub fn summary_text(a: &Analysis) -> String {
             d.ensembles, d.walkers, d.steps, d.burn_in_steps, d.acceptance, d.min_ess, d.reason
         );
     }
+    if let Some(audit) = &a.audit {
+        s.push_str(&audit_text(audit));
+    }
     let extra = post.map(|p| p.warnings.as_slice()).unwrap_or_default();
     for w in a.set.warnings.iter().chain(&fit.warnings).chain(extra) {
         let _ = writeln!(s, "warning: {w}");
     }
+    s
+}
+
+/// `value ± err` of a mass or `—`.
+fn mass_cell(m: Option<&Summary>) -> String {
+    m.map_or_else(|| "—".into(), format_summary)
+}
+
+/// The audit section of the summary: verdict and reasons, then per planet the aliases,
+/// the model variants and the jackknife ranges.
+pub fn audit_text(audit: &Audit) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "
+audit verdict: {}",
+        audit.verdict
+    );
+    for r in &audit.reasons {
+        let _ = writeln!(s, "  - {r}");
+    }
+    for pa in &audit.planets {
+        let _ = writeln!(
+            s,
+            "
+  {} (claimed {:.5} d, preferred {:.5} d): {}",
+            pa.label, pa.claimed_period_d, pa.preferred_period_d, pa.verdict
+        );
+        if let Some(l) = &pa.detection.limits {
+            let mass = match (l.mass95_mearth, l.mass99_mearth) {
+                (Some(m95), Some(m99)) => {
+                    format!("; mass < {m95:.2} M⊕ (95 %), < {m99:.2} M⊕ (99 %)")
+                }
+                _ => String::new(),
+            };
+            let _ = writeln!(
+                s,
+                "    upper limits: K < {:.2} m/s (95 %), < {:.2} m/s (99 %){mass}",
+                l.k95_mps, l.k99_mps
+            );
+        }
+        if pa.aliases.tested {
+            let _ = writeln!(
+                s,
+                "    {:<34} {:>11} {:>9} {:>9} {:>18} {:>18} {:>9}",
+                "alias", "period (d)", "ΔlnL", "ΔBIC", "K (m/s)", "mass (M⊕)", "sim. top"
+            );
+            for c in &pa.aliases.candidates {
+                let _ = writeln!(
+                    s,
+                    "    {:<34} {:>11.5} {:>9.2} {:>9.2} {:>18} {:>18} {:>9}",
+                    c.relation,
+                    c.values.period_d,
+                    c.delta_lnl,
+                    c.delta_bic,
+                    format_summary(&c.values.k_mps),
+                    mass_cell(c.values.mass_mearth.as_ref()),
+                    c.simulation
+                        .map_or_else(|| "—".into(), |m| format!("{:.2}", m.top_fraction)),
+                );
+            }
+        }
+        let _ = writeln!(
+            s,
+            "    {:<44} {:>9} {:>18} {:>18} {:>7}",
+            "model variant", "ΔBIC", "K (m/s)", "mass (M⊕)", "ΔK/σ"
+        );
+        for v in &pa.variants {
+            let (k, m) = match &v.planet {
+                Some(p) => (format_summary(&p.k_mps), mass_cell(p.mass_mearth.as_ref())),
+                None => ("(no such signal)".into(), "—".into()),
+            };
+            let _ = writeln!(
+                s,
+                "    {:<44} {:>9.2} {:>18} {:>18} {:>7}",
+                v.name,
+                v.delta_bic,
+                k,
+                m,
+                v.k_shift_sigma
+                    .map_or_else(|| "—".into(), |z| format!("{z:+.2}")),
+            );
+        }
+        if let Some(cv) = &pa.signal_count {
+            let scores: Vec<String> = cv
+                .scores
+                .iter()
+                .map(|c| {
+                    format!(
+                        "{} signals ({}): {:+.1} ± {:.1}",
+                        c.signals, c.change, c.delta, c.delta_se
+                    )
+                })
+                .collect();
+            let _ = writeln!(
+                s,
+                "    cross-validation ({} time blocks, Δ log predictive vs fitted): {}",
+                cv.folds,
+                scores.join("; ")
+            );
+        }
+        if let Some((lo, hi)) = pa.jackknife.k_range_mps {
+            let mass = pa
+                .jackknife
+                .mass_range_mearth
+                .map(|(a, b)| format!(", mass {a:.2}–{b:.2} M⊕"))
+                .unwrap_or_default();
+            let _ = writeln!(
+                s,
+                "    jackknife (instruments, seasons): K {lo:.2}–{hi:.2} m/s{mass}"
+            );
+        }
+    }
+    let t = &audit.timing;
+    let _ = writeln!(
+        s,
+        "  audit time: detection {:.1} s, aliases {:.1} s, variants {:.1} s, activity {:.1} s, jackknife {:.1} s",
+        t.detection_s, t.aliases_s, t.variants_s, t.activity_s, t.jackknife_s
+    );
     s
 }
 

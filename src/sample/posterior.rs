@@ -177,6 +177,13 @@ impl PriorSet {
                         let b = 10.0 * range.max(median_err) / years.powi(p as i32);
                         default(format!("trend_mps_per_yr{p}"), Prior::uniform(-b, b))
                     }
+                    Role::Regressor(c) => {
+                        let b = 10.0 * range.max(median_err) / set.indicator_spread(c);
+                        default(
+                            format!("regressor.{}", set.indicators[c].name),
+                            Prior::uniform(-b, b),
+                        )
+                    }
                 }
             })
             .collect();
@@ -270,7 +277,7 @@ impl<'a> LogPosterior<'a> {
     /// Sampling name of each ψ coordinate.
     pub fn names(&self) -> Vec<String> {
         self.layout
-            .names(&self.set.instruments)
+            .names(self.set)
             .into_iter()
             .zip(&self.roles)
             .map(|(n, role)| match role {

@@ -1,0 +1,397 @@
+//! Planet or stellar activity? A planet keeps its amplitude and phase from season to
+//! season and leaves the activity indicators alone; activity drifts in both and shows in
+//! the indicators.
+//!
+//! - Per season (a gap longer than the setting separates seasons) the signal's sinusoid
+//!   at the fitted period is refitted to the data with everything else removed (offsets
+//!   free); the seasons' `(a, b)` are tested for one common value with
+//!   `χ² = Σ (v_s − v̄)ᵀ C_s⁻¹ (v_s − v̄)`, `2(S − 1)` degrees of freedom.
+//! - Pearson correlation of each indicator (centred per instrument) with the RVs (offsets
+//!   removed) and with the residuals of the full fit; two-sided p-value from Student's t
+//!   with n − 2 degrees of freedom.
+//! - GLS periodogram of each indicator (one offset per instrument, equal weights) on the
+//!   search grid: its highest power within `1/span` of the planet's frequency, with the
+//!   Baluev FAP.
+//! - The period against the stellar rotation period and its first two harmonics.
+
+use serde::Serialize;
+use statrs::function::beta::beta_reg;
+use statrs::function::gamma::gamma_ur;
+
+use super::AuditError;
+use super::common::{Refitter, sine_fit};
+use crate::data::RvSet;
+
+/// Fractional distance from a rotation harmonic that counts as "near".
+const ROTATION_TOLERANCE: f64 = 0.05;
+
+/// An observing season.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Season {
+    /// First time, days from the data's reference epoch.
+    pub start_d: f64,
+    /// Last time, days from the data's reference epoch.
+    pub end_d: f64,
+    /// Points in the season.
+    pub n_points: usize,
+    /// Index of the first point (the data are sorted by time).
+    #[serde(skip)]
+    pub first: usize,
+}
+
+impl Season {
+    /// Indices of the season's points.
+    pub fn indices(&self) -> std::ops::Range<usize> {
+        self.first..self.first + self.n_points
+    }
+}
+
+/// Seasons of `set`: runs of points without a gap longer than `gap_d` days.
+pub fn seasons(set: &RvSet, gap_d: f64) -> Vec<Season> {
+    let mut out: Vec<Season> = Vec::new();
+    for (j, &t) in set.time_d.iter().enumerate() {
+        match out.last_mut() {
+            Some(s) if t - s.end_d <= gap_d => {
+                s.end_d = t;
+                s.n_points += 1;
+            }
+            _ => out.push(Season {
+                start_d: t,
+                end_d: t,
+                n_points: 1,
+                first: j,
+            }),
+        }
+    }
+    out
+}
+
+/// The signal in one season.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct SeasonFit {
+    /// Season number (0-based, as in the audit's `seasons`).
+    pub season: usize,
+    /// Points used.
+    pub n_points: usize,
+    /// Semi-amplitude of the sinusoid, m/s.
+    pub k_mps: f64,
+    /// Its 1σ, m/s.
+    pub k_err_mps: f64,
+    /// Phase `atan2(b, a)` of `K cos(2πft − φ)`, degrees.
+    pub phase_deg: f64,
+    /// Its 1σ, degrees.
+    pub phase_err_deg: f64,
+}
+
+/// Correlation of an indicator with the RVs or the residuals.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Correlation {
+    /// Indicator column.
+    pub indicator: String,
+    /// `rv` (offsets removed) or `residuals` (of the full fit).
+    pub against: &'static str,
+    /// Points with a value.
+    pub n_points: usize,
+    /// Pearson r.
+    pub r: f64,
+    /// Two-sided p-value of r = 0.
+    pub p_value: f64,
+}
+
+/// An indicator's periodogram near the planet's period.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct IndicatorPeak {
+    /// Indicator column.
+    pub indicator: String,
+    /// Period of the highest power within 1/span of the planet's frequency, days.
+    pub period_d: f64,
+    /// That power.
+    pub power: f64,
+    /// Its Baluev FAP over the search range.
+    pub fap: f64,
+    /// Period of the indicator's strongest peak anywhere, days.
+    pub strongest_period_d: f64,
+}
+
+/// Planet-or-activity checks of one planet.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Activity {
+    /// The signal season by season.
+    pub seasons: Vec<SeasonFit>,
+    /// p-value of one amplitude and phase for all seasons (absent with fewer than two).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub season_p: Option<f64>,
+    /// Correlations with each indicator.
+    pub correlations: Vec<Correlation>,
+    /// Each indicator's periodogram near the period.
+    pub indicator_peaks: Vec<IndicatorPeak>,
+    /// Which rotation harmonic the period is near, in words, if any.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub near_rotation: Option<String>,
+}
+
+/// Runs the checks for base planet `i`.
+///
+/// # Errors
+/// [`AuditError`] when an indicator periodogram cannot be computed.
+pub fn activity(refit: &Refitter, i: usize, seasons: &[Season]) -> Result<Activity, AuditError> {
+    let jit = refit.jitters();
+    let period = refit.base.planets[i].period_d.value;
+    let f = 1.0 / period;
+    let residual = refit.residual_without(i);
+    let fits: Vec<SeasonFit> = seasons
+        .iter()
+        .enumerate()
+        .filter_map(|(s, season)| {
+            let idx: Vec<usize> = season.indices().collect();
+            let sub = residual.select(&idx);
+            let sf = sine_fit(&sub, jit, f)?;
+            let k = sf.amplitude();
+            let [[caa, cab], [_, cbb]] = sf.cov;
+            let grad_quad =
+                |ga: f64, gb: f64| (ga * ga * caa + 2.0 * ga * gb * cab + gb * gb * cbb).sqrt();
+            let fit = SeasonFit {
+                season: s,
+                n_points: idx.len(),
+                k_mps: k,
+                k_err_mps: grad_quad(sf.a / k, sf.b / k),
+                phase_deg: sf.phase().to_degrees(),
+                phase_err_deg: grad_quad(-sf.b / (k * k), sf.a / (k * k)).to_degrees(),
+            };
+            (fit.k_err_mps.is_finite() && fit.phase_err_deg.is_finite()).then_some(fit)
+        })
+        .collect();
+    let season_p = season_consistency(&residual, jit, f, seasons);
+    let correlations = correlations(refit);
+    let indicator_peaks = indicator_peaks(refit, f)?;
+    let near_rotation = refit
+        .settings
+        .rotation_d
+        .and_then(|(p_rot, _)| near_rotation(period, p_rot));
+    Ok(Activity {
+        seasons: fits,
+        season_p,
+        correlations,
+        indicator_peaks,
+        near_rotation,
+    })
+}
+
+/// p-value of a common `(a, b)` across the seasons that can be fitted.
+fn season_consistency(residual: &RvSet, jit: &[f64], f: f64, seasons: &[Season]) -> Option<f64> {
+    let fits: Vec<([f64; 2], [[f64; 2]; 2])> = seasons
+        .iter()
+        .filter_map(|s| {
+            let idx: Vec<usize> = s.indices().collect();
+            let sf = sine_fit(&residual.select(&idx), jit, f)?;
+            let [[caa, cab], [_, cbb]] = sf.cov;
+            let det = caa * cbb - cab * cab;
+            (det > 0.0).then(|| {
+                (
+                    [sf.a, sf.b],
+                    [[cbb / det, -cab / det], [-cab / det, caa / det]],
+                )
+            })
+        })
+        .collect();
+    if fits.len() < 2 {
+        return None;
+    }
+    // Weighted mean v̄ = (Σ W_s)⁻¹ Σ W_s v_s with W_s = C_s⁻¹.
+    let mut w = [[0.0; 2]; 2];
+    let mut wv = [0.0; 2];
+    for (v, ws) in &fits {
+        for r in 0..2 {
+            for c in 0..2 {
+                w[r][c] += ws[r][c];
+            }
+            wv[r] += ws[r][0] * v[0] + ws[r][1] * v[1];
+        }
+    }
+    let det = w[0][0] * w[1][1] - w[0][1] * w[1][0];
+    let mean = [
+        (w[1][1] * wv[0] - w[0][1] * wv[1]) / det,
+        (w[0][0] * wv[1] - w[1][0] * wv[0]) / det,
+    ];
+    let chi2: f64 = fits
+        .iter()
+        .map(|(v, ws)| {
+            let d = [v[0] - mean[0], v[1] - mean[1]];
+            ws[0][0] * d[0] * d[0] + 2.0 * ws[0][1] * d[0] * d[1] + ws[1][1] * d[1] * d[1]
+        })
+        .sum();
+    let dof = 2.0 * (fits.len() - 1) as f64;
+    Some(chi2_survival(chi2, dof))
+}
+
+/// `P(χ²_dof > x)` = Q(dof/2, x/2), the regularised upper incomplete gamma function
+/// (Abramowitz & Stegun 1964, 26.4.19).
+pub fn chi2_survival(x: f64, dof: f64) -> f64 {
+    if x <= 0.0 {
+        1.0
+    } else {
+        gamma_ur(0.5 * dof, 0.5 * x)
+    }
+}
+
+/// Two-sided p-value of Student's t with `nu` degrees of freedom,
+/// `I_{ν/(ν+t²)}(ν/2, 1/2)` (Abramowitz & Stegun 1964, 26.7.1 with 26.5.27).
+pub fn student_t_two_sided(t: f64, nu: f64) -> f64 {
+    beta_reg(0.5 * nu, 0.5, nu / (nu + t * t))
+}
+
+/// Each indicator centred on its per-instrument mean: `(name, values)` with NaN kept.
+fn centred(set: &RvSet) -> Vec<(String, Vec<f64>)> {
+    set.indicators
+        .iter()
+        .map(|ind| {
+            let mut v = ind.values.clone();
+            for k in 0..set.n_instruments() {
+                let idx: Vec<usize> = (0..set.len())
+                    .filter(|&j| set.instrument[j] == k && v[j].is_finite())
+                    .collect();
+                if idx.is_empty() {
+                    continue;
+                }
+                let mean = idx.iter().map(|&j| v[j]).sum::<f64>() / idx.len() as f64;
+                idx.iter().for_each(|&j| v[j] -= mean);
+            }
+            (ind.name.clone(), v)
+        })
+        .collect()
+}
+
+/// Pearson r of `x` and `y` over the points where both are finite, with its p-value.
+fn pearson(x: &[f64], y: &[f64]) -> Option<(usize, f64, f64)> {
+    let pairs: Vec<(f64, f64)> = x
+        .iter()
+        .zip(y)
+        .filter(|(a, b)| a.is_finite() && b.is_finite())
+        .map(|(a, b)| (*a, *b))
+        .collect();
+    let n = pairs.len();
+    if n < 4 {
+        return None;
+    }
+    let mx = pairs.iter().map(|p| p.0).sum::<f64>() / n as f64;
+    let my = pairs.iter().map(|p| p.1).sum::<f64>() / n as f64;
+    let (mut sxy, mut sxx, mut syy) = (0.0, 0.0, 0.0);
+    for (a, b) in &pairs {
+        sxy += (a - mx) * (b - my);
+        sxx += (a - mx).powi(2);
+        syy += (b - my).powi(2);
+    }
+    if !(sxx > 0.0 && syy > 0.0) {
+        return None;
+    }
+    let r = (sxy / (sxx * syy).sqrt()).clamp(-1.0, 1.0);
+    let nu = (n - 2) as f64;
+    let t = r * (nu / (1.0 - r * r).max(1e-300)).sqrt();
+    Some((n, r, student_t_two_sided(t, nu)))
+}
+
+/// Correlations of each indicator with the RVs and the residuals of the base fit.
+fn correlations(refit: &Refitter) -> Vec<Correlation> {
+    let set = refit.set;
+    let p = &refit.base.params;
+    let rv: Vec<f64> = (0..set.len())
+        .map(|j| set.rv_mps[j] - p.offsets_mps[set.instrument[j]])
+        .collect();
+    let residuals = p.residuals(set);
+    let mut out = Vec::new();
+    for (name, x) in centred(set) {
+        for (against, y) in [("rv", &rv), ("residuals", &residuals)] {
+            if let Some((n_points, r, p_value)) = pearson(&x, y) {
+                out.push(Correlation {
+                    indicator: name.clone(),
+                    against,
+                    n_points,
+                    r,
+                    p_value,
+                });
+            }
+        }
+    }
+    out
+}
+
+/// Each indicator's periodogram near frequency `f`.
+fn indicator_peaks(refit: &Refitter, f: f64) -> Result<Vec<IndicatorPeak>, AuditError> {
+    let set = refit.set;
+    let span = set.baseline_d();
+    let mut out = Vec::new();
+    for ind in &set.indicators {
+        let idx: Vec<usize> = (0..set.len())
+            .filter(|&j| ind.values[j].is_finite())
+            .collect();
+        if idx.len() < 5 {
+            continue;
+        }
+        let mut sub = set.select(&idx);
+        sub.rv_mps = idx.iter().map(|&j| ind.values[j]).collect();
+        sub.err_mps = vec![1.0; idx.len()];
+        let pg = crate::periodogram::compute_with(
+            &sub,
+            &[],
+            &refit.grid,
+            crate::periodogram::Method::FAST,
+        )?;
+        let grid = &pg.grid;
+        let near = (0..grid.n)
+            .filter(|&j| (grid.frequency(j) - f).abs() <= 1.0 / span)
+            .max_by(|&a, &b| pg.power[a].total_cmp(&pg.power[b]));
+        let strongest = pg.peaks(1, 0.0).first().map_or(f64::NAN, |p| p.period);
+        if let Some(j) = near {
+            out.push(IndicatorPeak {
+                indicator: ind.name.clone(),
+                period_d: 1.0 / grid.frequency(j),
+                power: pg.power[j],
+                fap: pg.fap(pg.power[j]),
+                strongest_period_d: strongest,
+            });
+        }
+    }
+    Ok(out)
+}
+
+/// "rotation period", "half the rotation period", … when `period` is within 5 % of
+/// `p_rot / h`, h = 1, 2, 3.
+fn near_rotation(period: f64, p_rot: f64) -> Option<String> {
+    let names = [
+        "the rotation period",
+        "half the rotation period",
+        "a third of the rotation period",
+    ];
+    (1..=3).find_map(|h| {
+        let target = p_rot / h as f64;
+        ((period / target - 1.0).abs() < ROTATION_TOLERANCE)
+            .then(|| format!("{} ({target:.3} d)", names[h - 1]))
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Check values from standard tables (Abramowitz & Stegun 1964, tables 26.7 and 26.8;
+    /// also scipy.stats): P(χ²₂ > 5.991) = 0.05, P(χ²₁₀ > 18.307) = 0.05; two-sided
+    /// Student t: t = 2.228 with 10 dof gives p = 0.05, t = 1.96 with ν → ∞ about 0.05.
+    #[test]
+    fn tail_probabilities_match_tables() {
+        assert!((chi2_survival(5.991_46, 2.0) - 0.05).abs() < 1e-5);
+        assert!((chi2_survival(18.307_04, 10.0) - 0.05).abs() < 1e-5);
+        assert!((student_t_two_sided(2.228_14, 10.0) - 0.05).abs() < 1e-5);
+        assert!((student_t_two_sided(1.959_96, 1e7) - 0.05).abs() < 1e-5);
+    }
+
+    #[test]
+    fn rotation_harmonics() {
+        assert!(near_rotation(12.1, 24.0).unwrap().starts_with("half"));
+        assert!(
+            near_rotation(24.5, 24.0)
+                .unwrap()
+                .starts_with("the rotation")
+        );
+        assert!(near_rotation(17.0, 24.0).is_none());
+    }
+}

@@ -1,0 +1,401 @@
+//! Model variants: the same data refitted under each reasonable alternative model, and a
+//! time-split cross-validation of the number of signals.
+//!
+//! Variants: the other orbit shape (circular ↔ eccentric); one jitter shared by all
+//! instruments; each other trend order (0, 1, 2); without each other signal; with one more
+//! signal (the strongest residual periodogram peak); a linear term in each activity
+//! indicator (centred per instrument); a signal at the stellar rotation period when it is
+//! known; and, for two signals near a 2:1 period ratio, one eccentric planet at the outer
+//! period instead (the degeneracy of Anglada-Escudé, López-Morales & Chambers 2010, ApJ
+//! 709, 168). All are maximum-likelihood refits started from the baseline.
+//!
+//! Cross-validation: the data, in time order, are cut into contiguous blocks; each block
+//! in turn is predicted by the model fitted to the others, and the log predictive density
+//! `Σ ln N(y | model, σ² + s²)` of the held-out points is summed (points of an instrument
+//! absent from the training part are skipped). One fewer, the same and one more signal are
+//! compared; the standard error of a difference is `sqrt(n Var(Δ_i))` over the held-out
+//! points (as for the leave-one-out comparison of Vehtari, Gelman & Gabry 2017, Stat.
+//! Comput. 27, 1413). Unlike BIC it rests on out-of-sample prediction, not on a
+//! parameter-count penalty.
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use super::PlanetValues;
+use super::common::Refitter;
+use crate::data::{Indicator, RvSet};
+use crate::fit::{Fit, FitOptions, PlanetSpec, fit, next_label};
+use crate::model::point_log_likelihood;
+use crate::periodogram::sinusoid_at;
+use crate::target::OrbitShape;
+
+/// Period ratio range around 2 that counts as "near 2:1".
+const NEAR_TWO_TO_ONE: (f64, f64) = (1.9, 2.1);
+
+/// One model variant as seen by one planet.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Variant {
+    /// What changed, in words (`baseline` for the fit under audit).
+    pub name: String,
+    /// Free parameters.
+    pub n_params: usize,
+    /// ln L at the optimum.
+    pub log_likelihood: f64,
+    /// Akaike information criterion.
+    pub aic: f64,
+    /// Bayesian information criterion.
+    pub bic: f64,
+    /// BIC − BIC(baseline).
+    pub delta_bic: f64,
+    /// Within the competitive ΔBIC of the best variant.
+    pub competitive: bool,
+    /// The planet under this variant (absent when the variant drops it).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub planet: Option<PlanetValues>,
+    /// (K − K_baseline)/σ, σ the larger of the two K errors (a change is significant
+    /// only against the less precise of the two estimates).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub k_shift_sigma: Option<f64>,
+}
+
+/// Log predictive density of one model in the cross-validation.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct CvScore {
+    /// Number of signals.
+    pub signals: usize,
+    /// Which signal was dropped or added, if any.
+    pub change: String,
+    /// Summed log predictive density of the held-out points.
+    pub log_predictive: f64,
+    /// Difference to the baseline's.
+    pub delta: f64,
+    /// Standard error of that difference.
+    pub delta_se: f64,
+}
+
+/// Time-split cross-validation of the number of signals.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct CrossValidation {
+    /// Contiguous time blocks.
+    pub folds: usize,
+    /// Held-out points scored (the same for every model).
+    pub points: usize,
+    /// One score per model.
+    pub scores: Vec<CvScore>,
+    /// Number of signals with the best predictive density.
+    pub preferred_signals: usize,
+    /// The preferred model beats the baseline by more than two standard errors.
+    pub significant: bool,
+}
+
+/// A variant fit before it is seen per planet.
+struct Refit {
+    name: String,
+    fit: Fit,
+}
+
+/// The model variants of the whole system, tabulated for each base planet (same order).
+pub fn variants(refit: &Refitter) -> Vec<Vec<Variant>> {
+    let base = refit.base;
+    let opts = refit.options();
+    let specs = refit.specs();
+    let set = refit.set;
+    let mut jobs: Vec<(String, RvSet, Vec<PlanetSpec>, FitOptions)> = Vec::new();
+    let with = |f: &dyn Fn(&mut FitOptions)| {
+        let mut o = opts;
+        f(&mut o);
+        o
+    };
+    let (shape, shape_name) = match opts.shape {
+        OrbitShape::Eccentric => (OrbitShape::Circular, "circular orbits"),
+        OrbitShape::Circular => (OrbitShape::Eccentric, "eccentric orbits"),
+    };
+    jobs.push((
+        shape_name.into(),
+        set.clone(),
+        specs.clone(),
+        with(&|o| o.shape = shape),
+    ));
+    if set.n_instruments() > 1 && !opts.shared_jitter {
+        jobs.push((
+            "one jitter for all instruments".into(),
+            set.clone(),
+            specs.clone(),
+            with(&|o| o.shared_jitter = true),
+        ));
+    }
+    for t in (0..=2).filter(|&t| t != opts.trend) {
+        let name = ["no trend", "linear trend", "quadratic trend"][t];
+        jobs.push((
+            name.into(),
+            set.clone(),
+            specs.clone(),
+            with(&|o| o.trend = t),
+        ));
+    }
+    for (j, s) in specs.iter().enumerate() {
+        let mut fewer = specs.clone();
+        fewer.remove(j);
+        jobs.push((format!("without {}", s.label), set.clone(), fewer, opts));
+    }
+    if let Some(more) = one_more(refit) {
+        let added = more.last().map_or(0.0, |s| s.period_d);
+        jobs.push((
+            format!("one more signal ({added:.4} d)"),
+            set.clone(),
+            more,
+            opts,
+        ));
+    }
+    if !set.indicators.is_empty() && opts.regressors == 0 {
+        let names: Vec<&str> = set.indicators.iter().map(|i| i.name.as_str()).collect();
+        jobs.push((
+            format!("linear in {}", names.join(", ")),
+            centred_indicators(set),
+            specs.clone(),
+            with(&|o| o.regressors = set.indicators.len()),
+        ));
+    }
+    if let Some((p_rot, p_err)) = refit.settings.rotation_d
+        && let Some(spec) = rotation_spec(refit, p_rot, p_err)
+    {
+        let mut extra = specs.clone();
+        extra.push(spec);
+        jobs.push((
+            format!("with a rotation signal ({p_rot} d)"),
+            set.clone(),
+            extra,
+            opts,
+        ));
+    }
+    for (inner, outer) in near_two_to_one(&specs) {
+        let mut single = specs.clone();
+        single.remove(inner);
+        jobs.push((
+            format!(
+                "one eccentric planet instead of {} and {} (2:1)",
+                specs[inner].label, specs[outer].label
+            ),
+            set.clone(),
+            single,
+            with(&|o| o.shape = OrbitShape::Eccentric),
+        ));
+    }
+    let fits: Vec<Refit> = jobs
+        .into_par_iter()
+        .filter_map(|(name, data, planets, o)| {
+            fit(&data, &planets, &o).ok().map(|fit| Refit { name, fit })
+        })
+        .collect();
+    let all: Vec<(&str, &Fit)> = std::iter::once(("baseline", base))
+        .chain(fits.iter().map(|r| (r.name.as_str(), &r.fit)))
+        .collect();
+    let best_bic = all
+        .iter()
+        .map(|(_, f)| f.bic())
+        .fold(f64::INFINITY, f64::min);
+    (0..base.planets.len())
+        .map(|i| {
+            let k0 = base.planets[i].k_mps;
+            all.iter()
+                .map(|(name, f)| {
+                    let planet = refit.values(f, i);
+                    let k_shift_sigma = planet
+                        .as_ref()
+                        .map(|p| (p.k_mps.value - k0.value) / k0.plus.max(p.k_mps.plus).max(1e-12));
+                    Variant {
+                        name: (*name).to_string(),
+                        n_params: f.n_params,
+                        log_likelihood: f.log_likelihood,
+                        aic: f.aic(),
+                        bic: f.bic(),
+                        delta_bic: f.bic() - base.bic(),
+                        competitive: f.bic() - best_bic <= refit.settings.competitive_delta_bic,
+                        planet,
+                        k_shift_sigma,
+                    }
+                })
+                .collect()
+        })
+        .collect()
+}
+
+/// The base specs plus a signal at the strongest peak of the base fit's residual
+/// periodogram; `None` when the periodogram or the sinusoid cannot be computed.
+fn one_more(refit: &Refitter) -> Option<Vec<PlanetSpec>> {
+    let residual = refit.base.residual_set(refit.set, None);
+    let pg = refit.periodogram(&residual).ok()?;
+    let peak = pg.peaks(1, 0.0).into_iter().next()?;
+    let sine = sinusoid_at(&residual, refit.jitters(), peak.frequency).ok()?;
+    let mut specs = refit.specs();
+    let label = next_label(&specs);
+    specs.push(PlanetSpec::from_sinusoid(&sine, &label));
+    Some(specs)
+}
+
+/// A start at the rotation period from the base residuals, its period held within the
+/// given uncertainty (at least 2 %); `None` when outside the search range.
+fn rotation_spec(refit: &Refitter, p_rot: f64, p_err: f64) -> Option<PlanetSpec> {
+    let f = 1.0 / p_rot;
+    if !(f >= refit.grid.fmin && f <= refit.grid.fmax()) {
+        return None;
+    }
+    let residual = refit.base.residual_set(refit.set, None);
+    let sine = sinusoid_at(&residual, refit.jitters(), f).ok()?;
+    let mut spec = PlanetSpec::from_sinusoid(&sine, "rotation");
+    spec.period_prior = Some((p_rot, p_err.max(0.02 * p_rot)));
+    Some(spec)
+}
+
+/// Pairs `(inner, outer)` of planets whose period ratio is near 2.
+fn near_two_to_one(specs: &[PlanetSpec]) -> Vec<(usize, usize)> {
+    let mut pairs = Vec::new();
+    for (a, sa) in specs.iter().enumerate() {
+        for (b, sb) in specs.iter().enumerate() {
+            let ratio = sb.period_d / sa.period_d;
+            if ratio > NEAR_TWO_TO_ONE.0 && ratio < NEAR_TWO_TO_ONE.1 {
+                pairs.push((a, b));
+            }
+        }
+    }
+    pairs
+}
+
+/// The set with each indicator centred on its mean within each instrument (missing
+/// values stay missing), so a single coefficient per indicator does not mix instruments'
+/// zero points.
+fn centred_indicators(set: &RvSet) -> RvSet {
+    let mut out = set.clone();
+    out.indicators = set
+        .indicators
+        .iter()
+        .map(|ind| {
+            let mut values = ind.values.clone();
+            for k in 0..set.n_instruments() {
+                let idx: Vec<usize> = (0..set.len())
+                    .filter(|&j| set.instrument[j] == k && ind.values[j].is_finite())
+                    .collect();
+                if idx.is_empty() {
+                    continue;
+                }
+                let mean = idx.iter().map(|&j| ind.values[j]).sum::<f64>() / idx.len() as f64;
+                for j in idx {
+                    values[j] -= mean;
+                }
+            }
+            Indicator {
+                name: ind.name.clone(),
+                values,
+            }
+        })
+        .collect();
+    out
+}
+
+/// Cross-validates one fewer, the same, and one more signal; `None` when there are too few
+/// points for the folds.
+pub fn cross_validate(refit: &Refitter) -> Option<CrossValidation> {
+    let set = refit.set;
+    let folds = refit.settings.cv_folds.max(2);
+    let opts = refit.options();
+    let base_specs = refit.specs();
+    let n_base = base_specs.len();
+    let mut models: Vec<(usize, String, Vec<PlanetSpec>)> = Vec::new();
+    if n_base > 0 {
+        // The weakest signal: smallest K/σ_K.
+        let weakest = (0..n_base)
+            .min_by(|&a, &b| {
+                let z = |i: usize| {
+                    let k = refit.base.planets[i].k_mps;
+                    k.value / k.plus.max(1e-12)
+                };
+                z(a).total_cmp(&z(b))
+            })
+            .unwrap_or(0);
+        let mut fewer = base_specs.clone();
+        fewer.remove(weakest);
+        models.push((
+            n_base - 1,
+            format!("without {}", base_specs[weakest].label),
+            fewer,
+        ));
+    }
+    models.push((n_base, "as fitted".into(), base_specs.clone()));
+    if let Some(more) = one_more(refit) {
+        let p = more.last().map_or(0.0, |s| s.period_d);
+        models.push((n_base + 1, format!("plus {p:.4} d"), more));
+    }
+    let n = set.len();
+    let block = n / folds;
+    if block < 2 {
+        return None;
+    }
+    // Per model, per held-out point: log predictive density (NaN where not scored).
+    let scored: Vec<Vec<f64>> = models
+        .par_iter()
+        .map(|(_, _, specs)| {
+            let mut lpd = vec![f64::NAN; n];
+            for f in 0..folds {
+                let lo = f * block;
+                let hi = if f + 1 == folds { n } else { lo + block };
+                let train: Vec<usize> = (0..n).filter(|&j| j < lo || j >= hi).collect();
+                let train_set = set.select(&train);
+                let Ok(model) = fit(&train_set, specs, &opts) else {
+                    continue;
+                };
+                let p = &model.params;
+                for j in lo..hi {
+                    let k = set.instrument[j];
+                    if !train_set.instrument.contains(&k) {
+                        continue;
+                    }
+                    let t = set.time_d[j];
+                    let mean = p.planets_rv(t) + p.offsets_mps[k] + p.trend_rv(t);
+                    lpd[j] = point_log_likelihood(
+                        set.rv_mps[j] - mean,
+                        set.err_mps[j],
+                        p.jitters_mps[k],
+                    );
+                }
+            }
+            lpd
+        })
+        .collect();
+    let common: Vec<usize> = (0..n)
+        .filter(|&j| scored.iter().all(|m| m[j].is_finite()))
+        .collect();
+    if common.is_empty() {
+        return None;
+    }
+    let base_idx = models.iter().position(|m| m.0 == n_base)?;
+    let total = |m: usize| common.iter().map(|&j| scored[m][j]).sum::<f64>();
+    let scores: Vec<CvScore> = models
+        .iter()
+        .enumerate()
+        .map(|(m, (signals, change, _))| {
+            let diffs: Vec<f64> = common
+                .iter()
+                .map(|&j| scored[m][j] - scored[base_idx][j])
+                .collect();
+            let mean = diffs.iter().sum::<f64>() / diffs.len() as f64;
+            let var = diffs.iter().map(|d| (d - mean).powi(2)).sum::<f64>() / diffs.len() as f64;
+            CvScore {
+                signals: *signals,
+                change: change.clone(),
+                log_predictive: total(m),
+                delta: total(m) - total(base_idx),
+                delta_se: (diffs.len() as f64 * var).sqrt(),
+            }
+        })
+        .collect();
+    let best = scores
+        .iter()
+        .max_by(|a, b| a.log_predictive.total_cmp(&b.log_predictive))?;
+    Some(CrossValidation {
+        folds,
+        points: common.len(),
+        preferred_signals: best.signals,
+        significant: best.signals != n_base && best.delta > 2.0 * best.delta_se,
+        scores,
+    })
+}

@@ -1,0 +1,83 @@
+//! `heft audit`: is a claimed signal, and the mass that follows from it, robust?
+
+use std::io::Write;
+use std::process::ExitCode;
+
+use heft::audit::{self, AuditSettings, Context};
+use heft::report::{audit_json, summary_text};
+
+use super::Failure;
+use super::fit::{FitArgs, analyse};
+
+/// Arguments of `heft audit`: those of `heft fit` (at least one --period), and the
+/// stellar rotation period when known.
+#[derive(clap::Args, Debug)]
+pub struct AuditArgs {
+    #[command(flatten)]
+    fit: FitArgs,
+    /// Stellar rotation period, days: the audit also tests a signal there.
+    #[arg(long)]
+    rotation_d: Option<f64>,
+    /// 1σ uncertainty of the rotation period, days.
+    #[arg(long, requires = "rotation_d", default_value_t = 0.0)]
+    rotation_err_d: f64,
+}
+
+/// Runs the command: fits the data with the claimed periods as starting points (and any
+/// further signals the search finds), audits the claimed planets, prints the summary or
+/// the JSON, and exits with status 4 when the verdict is not `robust`.
+pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
+    let n_claims = args.fit.periods().len();
+    if n_claims == 0 {
+        return Err(Failure::Input(anyhow::anyhow!(
+            "heft audit needs the claimed period: --period P (repeatable)"
+        )));
+    }
+    if let Some(p) = args.rotation_d
+        && !(p.is_finite() && p > 0.0)
+    {
+        return Err(Failure::Input(anyhow::anyhow!(
+            "--rotation-d must be positive, got {p}"
+        )));
+    }
+    let star = args.fit.star()?;
+    let mut analysis = analyse(args.fit.request(star.as_ref())?)?;
+    let labels: Vec<String> = analysis
+        .search
+        .fit
+        .planets
+        .iter()
+        .take(n_claims)
+        .map(|p| p.label.clone())
+        .collect();
+    let ctx = Context {
+        star: star.as_ref(),
+        transits: &[],
+        labels: &labels,
+    };
+    let settings = AuditSettings {
+        seed: args.fit.seed(),
+        rotation_d: args.rotation_d.map(|p| (p, args.rotation_err_d.max(0.0))),
+        ..AuditSettings::default()
+    };
+    let result = audit::audit(&analysis, &ctx, &settings).map_err(|e| Failure::Input(e.into()))?;
+    let robust = result.is_robust();
+    analysis.audit = Some(result);
+    let text = if args.fit.json() {
+        let mut s = serde_json::to_string_pretty(&audit_json(&analysis))
+            .map_err(|e| Failure::Internal(e.into()))?;
+        s.push('\n');
+        s
+    } else {
+        summary_text(&analysis)
+    };
+    std::io::stdout()
+        .lock()
+        .write_all(text.as_bytes())
+        .map_err(|e| Failure::Internal(e.into()))?;
+    Ok(if robust {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(4)
+    })
+}
