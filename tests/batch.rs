@@ -46,8 +46,8 @@ fn without_run_dir(table: &str) -> Vec<String> {
         .lines()
         .map(|l| {
             let mut f: Vec<&str> = l.split(',').collect();
-            if f.len() > 13 {
-                f.remove(13);
+            if f.len() > 14 {
+                f.remove(14);
             }
             f.join(",")
         })

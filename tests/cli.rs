@@ -19,13 +19,23 @@ fn repo(p: &str) -> String {
         .to_string()
 }
 
+/// The JSON printed by a command that finished: exit 0, or 4 with a verdict that is not
+/// `robust` (design.md exit codes).
 fn json_of(out: &Output) -> Value {
+    let code = out.status.code();
     assert!(
-        out.status.success(),
-        "stderr: {}",
+        matches!(code, Some(0) | Some(4)),
+        "exit {code:?}, stderr: {}",
         String::from_utf8_lossy(&out.stderr)
     );
-    serde_json::from_slice(&out.stdout).unwrap()
+    let doc: Value = serde_json::from_slice(&out.stdout).unwrap();
+    let verdict = doc["audit"]["verdict"].as_str();
+    assert_eq!(
+        code == Some(4),
+        verdict.is_some_and(|v| v != "robust"),
+        "exit status and verdict {verdict:?} agree"
+    );
+    doc
 }
 
 fn stderr(out: &Output) -> String {
@@ -245,6 +255,10 @@ fn run_writes_a_new_folder_and_refuses_a_full_one() {
         2,
         "one pair of contours for the one planet with a radius"
     );
+    // Every run audits its planets: the verdict, a block per planet, and the figure.
+    assert_eq!(doc["audit"]["planets"].as_array().unwrap().len(), 2);
+    let figure = std::fs::read_to_string(out_dir.join("audit.svg")).unwrap();
+    assert!(figure.matches(r#"class="estimate""#).count() >= 10);
     let again = heft(&["run", &target, "--out", out_dir.to_str().unwrap()]);
     assert_eq!(again.status.code(), Some(2));
     assert!(stderr(&again).contains("not empty"));
@@ -453,4 +467,62 @@ fn run_with_sampling_writes_draws() {
     );
     let svg = std::fs::read_to_string(out_dir.join("corner.svg")).unwrap();
     assert!(svg.starts_with("<svg") && svg.contains("b.k_mps"));
+}
+
+#[test]
+fn audit_json_has_verdict_and_aliases() {
+    // 60 invented points with a 17.31 d and a 3.127 d sinusoid (see
+    // tests/reference/make_gls_fixture.py); the claim is the 17.31 d signal.
+    let data = repo("tests/reference/gls_data.csv");
+    let out = heft(&[
+        "audit",
+        &data,
+        "--period",
+        "17.3",
+        "--mstar-msun",
+        "0.9",
+        "--mstar-err",
+        "0.05",
+        "--json",
+    ]);
+    let doc = json_of(&out);
+    let verdict = doc["verdict"].as_str().unwrap();
+    assert!(
+        [
+            "robust",
+            "alias-ambiguous",
+            "model-dependent",
+            "not-detected"
+        ]
+        .contains(&verdict),
+        "{verdict}"
+    );
+    assert_eq!(doc["audit"]["verdict"], doc["verdict"]);
+    let aliases = doc["aliases"].as_array().unwrap();
+    let claimed = aliases
+        .iter()
+        .find(|a| a["relation"] == "claimed")
+        .expect("the claimed period is among the aliases");
+    assert_eq!(claimed["delta_lnl"].as_f64(), Some(0.0));
+    assert!((claimed["period_d"].as_f64().unwrap() - 17.31).abs() < 0.2);
+    for a in aliases {
+        assert!(a["period_d"].as_f64().unwrap() > 0.0);
+        assert!(a["delta_lnl"].is_number());
+        assert!(is_estimate(&a["k_mps"]));
+    }
+    // Only the claimed planet is audited; its variants carry masses.
+    let planets = doc["audit"]["planets"].as_array().unwrap();
+    assert_eq!(planets.len(), 1);
+    assert!(is_estimate(
+        &planets[0]["variants"][0]["planet"]["mass_mearth"]
+    ));
+    assert!(
+        doc["audit"]["reasons"]
+            .as_array()
+            .is_some_and(|r| !r.is_empty())
+    );
+
+    let no_claim = heft(&["audit", &data]);
+    assert_eq!(no_claim.status.code(), Some(2));
+    assert!(stderr(&no_claim).contains("--period"));
 }

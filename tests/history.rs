@@ -13,11 +13,18 @@ fn heft(args: &[&str]) -> std::process::Output {
         .unwrap()
 }
 
+/// The demo in `to`, with the audit switched off (these tests are about run history;
+/// the last section of the demo target is `[settings]`).
 fn copy_demo(to: &Path) {
     let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("data-demo");
     for name in ["ostrel-12.toml", "quill.csv", "tarn.txt", "fennick.tsv"] {
         std::fs::copy(demo.join(name), to.join(name)).unwrap();
     }
+    let target = to.join("ostrel-12.toml");
+    let mut text = std::fs::read_to_string(&target).unwrap();
+    assert!(text.contains("[settings]"));
+    text.push_str("audit = false\n");
+    std::fs::write(&target, text).unwrap();
 }
 
 #[test]

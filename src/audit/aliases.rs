@@ -156,7 +156,7 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
             specs[i] = spec;
             let f = fit(refit.set, &specs, &base.options).ok()?;
             let values = refit.values(&f, i)?;
-            let orbit = f.params.planets[i].clone();
+            let orbit = f.params.planets[i];
             let dl = f.log_likelihood - base.log_likelihood;
             Some((
                 AliasCandidate {
@@ -173,7 +173,7 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
             ))
         })
         .collect();
-    let mut candidates = vec![(claimed_candidate, base.params.planets[i].clone())];
+    let mut candidates = vec![(claimed_candidate, base.params.planets[i])];
     for (r, (fa, rel)) in refits.into_iter().zip(&freqs) {
         match r {
             Some(c) => candidates.push(c),

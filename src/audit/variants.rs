@@ -344,14 +344,17 @@ pub fn cross_validate(refit: &Refitter) -> Option<CrossValidation> {
                     continue;
                 };
                 let p = &model.params;
-                for j in lo..hi {
+                for (j, out) in lpd.iter_mut().enumerate().take(hi).skip(lo) {
                     let k = set.instrument[j];
                     if !train_set.instrument.contains(&k) {
                         continue;
                     }
                     let t = set.time_d[j];
-                    let mean = p.planets_rv(t) + p.offsets_mps[k] + p.trend_rv(t);
-                    lpd[j] = point_log_likelihood(
+                    let mean = p.planets_rv(t)
+                        + p.offsets_mps[k]
+                        + p.trend_rv(t)
+                        + p.regressors_rv(set, j);
+                    *out = point_log_likelihood(
                         set.rv_mps[j] - mean,
                         set.err_mps[j],
                         p.jitters_mps[k],

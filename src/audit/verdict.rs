@@ -49,7 +49,7 @@ impl std::fmt::Display for Verdict {
     }
 }
 
-/// Compact number for reasons: 3 significant digits, scientific when tiny.
+/// Compact number for reasons: three decimals, scientific below 0.001.
 fn num(x: f64) -> String {
     if x != 0.0 && x.abs() < 1e-3 {
         format!("{x:.1e}")
@@ -59,7 +59,7 @@ fn num(x: f64) -> String {
 }
 
 /// One planet's verdict and its reasons (the problems found; when there are none, the
-/// evidence that it is robust).
+/// evidence that it is robust), plus a note when a variant fits much better.
 pub fn judge(pa: &PlanetAudit, settings: &AuditSettings) -> (Verdict, Vec<String>) {
     let mut found: Vec<(Verdict, String)> = Vec::new();
     let mut evidence = Vec::new();
@@ -230,12 +230,32 @@ pub fn judge(pa: &PlanetAudit, settings: &AuditSettings) -> (Verdict, Vec<String
         ));
     }
 
+    // A much better model is worth knowing either way.
+    let best = pa
+        .variants
+        .iter()
+        .skip(1)
+        .min_by(|a, b| a.delta_bic.total_cmp(&b.delta_bic));
+    let note = best
+        .filter(|v| v.delta_bic < -settings.competitive_delta_bic)
+        .map(|v| match (&v.planet, v.k_shift_sigma) {
+            (Some(p), Some(z)) => format!(
+                "note: '{}' fits much better (ΔBIC = {:+.1}); K under it {:.2} ± {:.2} m/s ({z:+.1} σ)",
+                v.name, v.delta_bic, p.k_mps.value, p.k_mps.plus
+            ),
+            _ => format!(
+                "note: '{}' fits much better (ΔBIC = {:+.1})",
+                v.name, v.delta_bic
+            ),
+        });
     let verdict = found.iter().map(|f| f.0).min().unwrap_or(Verdict::Robust);
-    if found.is_empty() {
-        (Verdict::Robust, evidence)
+    let mut reasons: Vec<String> = if found.is_empty() {
+        evidence
     } else {
-        (verdict, found.into_iter().map(|f| f.1).collect())
-    }
+        found.into_iter().map(|f| f.1).collect()
+    };
+    reasons.extend(note);
+    (verdict, reasons)
 }
 
 /// The overall verdict of several planet audits and their reasons, labelled.

@@ -12,7 +12,7 @@ use super::execute::execute;
 
 /// Header of the summary table: one row per planet (or one row per target without
 /// planets or with an error).
-pub const SUMMARY_HEADER: &str = "target,name,status,n_points,planet,period_d,k_mps,k_err_mps,msini_mearth,mass_mearth,radius_rearth,density_gcc,class,run_dir,error";
+pub const SUMMARY_HEADER: &str = "target,name,status,n_points,planet,period_d,k_mps,k_err_mps,msini_mearth,mass_mearth,radius_rearth,density_gcc,class,verdict,run_dir,error";
 
 /// One shard of a job array: targets `i` with `i mod count == index − 1`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
@@ -159,7 +159,7 @@ fn rows_of(target: &Path, done: &super::Completed) -> Vec<String> {
     };
     let dir = field(&done.dir.display().to_string());
     if fit.planets.is_empty() {
-        return vec![format!("{},,,,,,,,,,{dir},", base("ok"))];
+        return vec![format!("{},,,,,,,,,,,{dir},", base("ok"))];
     }
     fit.planets
         .iter()
@@ -176,8 +176,13 @@ fn rows_of(target: &Path, done: &super::Completed) -> Vec<String> {
                 ),
                 None => (None, None, None, None, String::new()),
             };
+            let verdict = a
+                .audit
+                .as_ref()
+                .and_then(|au| au.planets.iter().find(|pa| pa.label == p.label))
+                .map_or("", |pa| pa.verdict.as_str());
             format!(
-                "{},{},{},{},{},{},{},{},{},{},{dir},",
+                "{},{},{},{},{},{},{},{},{},{},{verdict},{dir},",
                 base("ok"),
                 field(&p.label),
                 p.period_d.value,
@@ -211,7 +216,7 @@ pub fn run_batch(targets: &[PathBuf], threads: usize) -> Vec<BatchOutcome> {
                     BatchOutcome {
                         target: t.clone(),
                         rows: vec![format!(
-                            "{},,failed,,,,,,,,,,,,{}",
+                            "{},,failed,,,,,,,,,,,,,{}",
                             field(&t.display().to_string()),
                             field(&msg)
                         )],
