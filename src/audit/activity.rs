@@ -19,7 +19,7 @@ use statrs::function::beta::beta_reg;
 use statrs::function::gamma::gamma_ur;
 
 use super::AuditError;
-use super::common::{Refitter, sine_fit};
+use super::common::{Refitter, SineFit, centred_indicators, sine_fit};
 use crate::data::RvSet;
 
 /// Fractional distance from a rotation harmonic that counts as "near".
@@ -139,20 +139,24 @@ pub fn activity(refit: &Refitter, i: usize, seasons: &[Season]) -> Result<Activi
     let period = refit.base.planets[i].period_d.value;
     let f = 1.0 / period;
     let residual = refit.residual_without(i);
-    let fits: Vec<SeasonFit> = seasons
+    let sines: Vec<(usize, usize, SineFit)> = seasons
         .iter()
         .enumerate()
         .filter_map(|(s, season)| {
             let idx: Vec<usize> = season.indices().collect();
-            let sub = residual.select(&idx);
-            let sf = sine_fit(&sub, jit, f)?;
+            sine_fit(&residual.select(&idx), jit, f).map(|sf| (s, idx.len(), sf))
+        })
+        .collect();
+    let fits: Vec<SeasonFit> = sines
+        .iter()
+        .filter_map(|&(season, n_points, sf)| {
             let k = sf.amplitude();
             let [[caa, cab], [_, cbb]] = sf.cov;
             let grad_quad =
                 |ga: f64, gb: f64| (ga * ga * caa + 2.0 * ga * gb * cab + gb * gb * cbb).sqrt();
             let fit = SeasonFit {
-                season: s,
-                n_points: idx.len(),
+                season,
+                n_points,
                 k_mps: k,
                 k_err_mps: grad_quad(sf.a / k, sf.b / k),
                 phase_deg: sf.phase().to_degrees(),
@@ -161,7 +165,7 @@ pub fn activity(refit: &Refitter, i: usize, seasons: &[Season]) -> Result<Activi
             (fit.k_err_mps.is_finite() && fit.phase_err_deg.is_finite()).then_some(fit)
         })
         .collect();
-    let season_p = season_consistency(&residual, jit, f, seasons);
+    let season_p = season_consistency(sines.iter().map(|x| &x.2));
     let correlations = correlations(refit);
     let indicator_peaks = indicator_peaks(refit, f)?;
     let near_rotation = refit
@@ -177,22 +181,10 @@ pub fn activity(refit: &Refitter, i: usize, seasons: &[Season]) -> Result<Activi
     })
 }
 
-/// p-value of a common `(a, b)` across the seasons that can be fitted.
-fn season_consistency(residual: &RvSet, jit: &[f64], f: f64, seasons: &[Season]) -> Option<f64> {
-    let fits: Vec<([f64; 2], [[f64; 2]; 2])> = seasons
-        .iter()
-        .filter_map(|s| {
-            let idx: Vec<usize> = s.indices().collect();
-            let sf = sine_fit(&residual.select(&idx), jit, f)?;
-            let [[caa, cab], [_, cbb]] = sf.cov;
-            let det = caa * cbb - cab * cab;
-            (det > 0.0).then(|| {
-                (
-                    [sf.a, sf.b],
-                    [[cbb / det, -cab / det], [-cab / det, caa / det]],
-                )
-            })
-        })
+/// p-value of one common `(a, b)` for the seasons' sinusoid fits.
+fn season_consistency<'s>(sines: impl Iterator<Item = &'s SineFit>) -> Option<f64> {
+    let fits: Vec<([f64; 2], [[f64; 2]; 2])> = sines
+        .filter_map(|sf| sf.precision().map(|w| ([sf.a, sf.b], w)))
         .collect();
     if fits.len() < 2 {
         return None;
@@ -240,27 +232,6 @@ pub fn student_t_two_sided(t: f64, nu: f64) -> f64 {
     beta_reg(0.5 * nu, 0.5, nu / (nu + t * t))
 }
 
-/// Each indicator centred on its per-instrument mean: `(name, values)` with NaN kept.
-fn centred(set: &RvSet) -> Vec<(String, Vec<f64>)> {
-    set.indicators
-        .iter()
-        .map(|ind| {
-            let mut v = ind.values.clone();
-            for k in 0..set.n_instruments() {
-                let idx: Vec<usize> = (0..set.len())
-                    .filter(|&j| set.instrument[j] == k && v[j].is_finite())
-                    .collect();
-                if idx.is_empty() {
-                    continue;
-                }
-                let mean = idx.iter().map(|&j| v[j]).sum::<f64>() / idx.len() as f64;
-                idx.iter().for_each(|&j| v[j] -= mean);
-            }
-            (ind.name.clone(), v)
-        })
-        .collect()
-}
-
 /// Pearson r of `x` and `y` over the points where both are finite, with its p-value.
 fn pearson(x: &[f64], y: &[f64]) -> Option<(usize, f64, f64)> {
     let pairs: Vec<(f64, f64)> = x
@@ -299,11 +270,11 @@ fn correlations(refit: &Refitter) -> Vec<Correlation> {
         .collect();
     let residuals = p.residuals(set);
     let mut out = Vec::new();
-    for (name, x) in centred(set) {
+    for ind in centred_indicators(set).indicators {
         for (against, y) in [("rv", &rv), ("residuals", &residuals)] {
-            if let Some((n_points, r, p_value)) = pearson(&x, y) {
+            if let Some((n_points, r, p_value)) = pearson(&ind.values, y) {
                 out.push(Correlation {
-                    indicator: name.clone(),
+                    indicator: ind.name.clone(),
                     against,
                     n_points,
                     r,

@@ -6,7 +6,7 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 
 use super::{AuditError, AuditSettings, Context, PlanetValues};
-use crate::data::RvSet;
+use crate::data::{Indicator, RvSet};
 use crate::derive::{OrbitDraws, PlanetDerived, StarDraws, TransitDraws, derive_planet};
 use crate::fit::{Fit, FitOptions, PlanetSpec};
 use crate::periodogram::{Grid, Method, Periodogram, compute_with};
@@ -209,6 +209,13 @@ impl SineFit {
     pub fn phase(&self) -> f64 {
         self.b.atan2(self.a)
     }
+
+    /// Inverse of the covariance of `(a, b)`; `None` when it is singular.
+    pub fn precision(&self) -> Option<[[f64; 2]; 2]> {
+        let [[caa, cab], [_, cbb]] = self.cov;
+        let det = caa * cbb - cab * cab;
+        (det > 0.0).then(|| [[cbb / det, -cab / det], [-cab / det, caa / det]])
+    }
 }
 
 /// Fits [`SineFit`] at `f` (1/day) to `set`; `None` when the normal equations are singular
@@ -255,4 +262,35 @@ pub fn sine_fit(set: &RvSet, jitters: &[f64], f: f64) -> Option<SineFit> {
         ],
         delta_chi2: chi2_0 - chi2_1,
     })
+}
+
+/// The set with each indicator centred on its mean within each instrument (missing
+/// values stay missing), so a single coefficient per indicator does not mix instruments'
+/// zero points.
+pub fn centred_indicators(set: &RvSet) -> RvSet {
+    let mut out = set.clone();
+    out.indicators = set
+        .indicators
+        .iter()
+        .map(|ind| {
+            let mut values = ind.values.clone();
+            for k in 0..set.n_instruments() {
+                let idx: Vec<usize> = (0..set.len())
+                    .filter(|&j| set.instrument[j] == k && ind.values[j].is_finite())
+                    .collect();
+                if idx.is_empty() {
+                    continue;
+                }
+                let mean = idx.iter().map(|&j| ind.values[j]).sum::<f64>() / idx.len() as f64;
+                for j in idx {
+                    values[j] -= mean;
+                }
+            }
+            Indicator {
+                name: ind.name.clone(),
+                values,
+            }
+        })
+        .collect();
+    out
 }

@@ -36,6 +36,17 @@ pub struct JackknifeFit {
     pub flagged: bool,
 }
 
+impl JackknifeFit {
+    /// What was left out, in words: `without instrument Quill`, `without season 2`,
+    /// `without epoch quill.csv:17`.
+    pub fn description(&self) -> String {
+        match self.kind {
+            "season" => format!("without {}", self.dropped),
+            kind => format!("without {kind} {}", self.dropped),
+        }
+    }
+}
+
 /// The jackknife of one planet.
 #[derive(Clone, Debug, Default, PartialEq, Serialize)]
 pub struct Jackknife {

@@ -113,7 +113,7 @@ pub fn detection(refit: &Refitter, i: usize) -> Result<Detection, AuditError> {
     let limits = if detected {
         None
     } else {
-        sine_fit(&residual, jit, f).map(|sf| limits(refit, i, &sf, pg.as_ref()))
+        sine_fit(&residual, jit, f).and_then(|sf| limits(refit, i, &sf, pg.as_ref()))
     };
     Ok(Detection {
         detected,
@@ -129,12 +129,10 @@ pub fn detection(refit: &Refitter, i: usize) -> Result<Detection, AuditError> {
     })
 }
 
-/// Posterior CDF of K on a grid: `(K values, CDF)`.
-fn k_posterior(sf: &SineFit) -> (Vec<f64>, Vec<f64>) {
-    let [[caa, cab], [_, cbb]] = sf.cov;
-    let det = caa * cbb - cab * cab;
-    let (iaa, iab, ibb) = (cbb / det, -cab / det, caa / det);
-    let sd = caa.max(cbb).sqrt();
+/// Posterior CDF of K on a grid: `(K values, CDF)`; `None` for a singular covariance.
+fn k_posterior(sf: &SineFit) -> Option<(Vec<f64>, Vec<f64>)> {
+    let [[iaa, iab], [_, ibb]] = sf.precision()?;
+    let sd = sf.cov[0][0].max(sf.cov[1][1]).sqrt();
     let k_max = sf.amplitude() + 10.0 * sd;
     let ks: Vec<f64> = (0..K_GRID)
         .map(|j| k_max * j as f64 / (K_GRID - 1) as f64)
@@ -162,7 +160,7 @@ fn k_posterior(sf: &SineFit) -> (Vec<f64>, Vec<f64>) {
     }
     let total = cdf[K_GRID - 1];
     cdf.iter_mut().for_each(|c| *c /= total);
-    (ks, cdf)
+    Some((ks, cdf))
 }
 
 /// K at cumulative probability `u` (linear interpolation of the CDF).
@@ -173,12 +171,13 @@ fn quantile(ks: &[f64], cdf: &[f64], u: f64) -> f64 {
     ks[j - 1] + w * (ks[j] - ks[j - 1])
 }
 
-/// Upper limits and the detection curve of base planet `i` from its sinusoid fit.
-fn limits(refit: &Refitter, i: usize, sf: &SineFit, pg: Option<&Periodogram>) -> Limits {
+/// Upper limits and the detection curve of base planet `i` from its sinusoid fit; `None`
+/// when the fit's covariance is singular.
+fn limits(refit: &Refitter, i: usize, sf: &SineFit, pg: Option<&Periodogram>) -> Option<Limits> {
     let est = &refit.base.planets[i];
     let period = est.period_d.value;
     let f = 1.0 / period;
-    let (ks, cdf) = k_posterior(sf);
+    let (ks, cdf) = k_posterior(sf)?;
     let k95 = quantile(&ks, &cdf, 0.95);
     let k99 = quantile(&ks, &cdf, 0.99);
     let seed = refit.settings.seed;
@@ -219,35 +218,36 @@ fn limits(refit: &Refitter, i: usize, sf: &SineFit, pg: Option<&Periodogram>) ->
             }
         })
         .collect();
-    Limits {
+    Some(Limits {
         k95_mps: k95,
         k99_mps: k99,
         mass95_mearth: masses.and_then(|m| m.0),
         mass99_mearth: masses.and_then(|m| m.1),
         detection_curve,
-    }
+    })
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
 
-    /// With an isotropic Gaussian likelihood centred on 0, the posterior of K under
-    /// uniform K and phase priors is the Rayleigh distribution (common practice):
-    /// P(K < k) = 1 − exp(−k²/2σ²), so the 95 % limit is σ √(−2 ln 0.05) = 2.4477 σ and
-    /// the 99 % limit 3.0349 σ.
+    /// With an isotropic Gaussian likelihood centred on 0 (σ = 2 per coefficient) and
+    /// uniform priors on K ≥ 0 and the phase, the posterior of K is half-normal,
+    /// `p(K) ∝ exp(−K²/2σ²)`, so its 95 % and 99 % points are the two-sided normal
+    /// quantiles 1.95996 σ and 2.57583 σ (normal tables, common practice). (A uniform
+    /// prior on the coefficients instead would give the Rayleigh distribution.)
     #[test]
-    fn null_signal_limits_are_rayleigh_quantiles() {
+    fn null_signal_limits_are_half_normal_quantiles() {
         let sf = SineFit {
             a: 0.0,
             b: 0.0,
             cov: [[4.0, 0.0], [0.0, 4.0]],
             delta_chi2: 0.0,
         };
-        let (ks, cdf) = k_posterior(&sf);
+        let (ks, cdf) = k_posterior(&sf).unwrap();
         let k95 = quantile(&ks, &cdf, 0.95);
         let k99 = quantile(&ks, &cdf, 0.99);
-        assert!((k95 / 2.0 - 2.447_747).abs() < 2e-3, "{k95}");
-        assert!((k99 / 2.0 - 3.034_854).abs() < 2e-3, "{k99}");
+        assert!((k95 / 2.0 - 1.959_964).abs() < 2e-3, "{k95}");
+        assert!((k99 / 2.0 - 2.575_829).abs() < 2e-3, "{k99}");
     }
 }

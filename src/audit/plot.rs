@@ -14,18 +14,29 @@ const RIGHT: f64 = 14.0;
 const ROW: f64 = 17.0;
 const PANEL_TOP: f64 = 26.0;
 const AXIS_H: f64 = 34.0;
-/// Colours of our own: dark blue for competitive variants, mid grey for disfavoured ones
-/// and subsets (distinct in greyscale by fill: solid against hollow).
+/// Colours of our own: black for the baseline, dark blue for competitive variants, mid
+/// grey for the others and subsets (distinct in greyscale by fill: solid against hollow).
 const INK: &str = "#222222";
 const MAIN: &str = "#1f5fa8";
 const MUTED: &str = "#8c8c8c";
 const BAND: &str = "#dfe8f3";
 
-/// One row: label, value, whether solid.
+/// How a row is drawn.
+#[derive(Clone, Copy, PartialEq)]
+enum Style {
+    /// The fit under audit: solid black.
+    Baseline,
+    /// A competitive variant: solid blue.
+    Competitive,
+    /// Other variants and jackknife subsets: hollow grey.
+    Other,
+}
+
+/// One row of a panel.
 struct Row {
     label: String,
     value: Summary,
-    solid: bool,
+    style: Style,
 }
 
 /// The quantity plotted for a planet: mass when known, else K.
@@ -49,21 +60,27 @@ pub fn svg(audit: &Audit) -> String {
     let mut panels = Vec::new();
     for pa in &audit.planets {
         let mut rows: Vec<Row> = Vec::new();
-        for v in &pa.variants {
+        for (k, v) in pa.variants.iter().enumerate() {
             if let Some(p) = &v.planet {
                 rows.push(Row {
                     label: v.name.clone(),
                     value: quantity(p),
-                    solid: v.competitive,
+                    style: if k == 0 {
+                        Style::Baseline
+                    } else if v.competitive {
+                        Style::Competitive
+                    } else {
+                        Style::Other
+                    },
                 });
             }
         }
         for j in pa.jackknife.fits.iter().filter(|j| j.kind != "epoch") {
             if let Some(p) = &j.planet {
                 rows.push(Row {
-                    label: format!("without {} {}", j.kind, j.dropped),
+                    label: j.description(),
                     value: quantity(p),
-                    solid: false,
+                    style: Style::Other,
                 });
             }
         }
@@ -78,7 +95,7 @@ pub fn svg(audit: &Audit) -> String {
         .iter()
         .map(|(_, rows, _)| PANEL_TOP + ROW * rows.len() as f64 + AXIS_H)
         .sum::<f64>()
-        + 8.0;
+        + 22.0;
     let mut out = String::new();
     let _ = writeln!(
         out,
@@ -122,8 +139,16 @@ pub fn svg(audit: &Audit) -> String {
         }
         for (k, r) in rows.iter().enumerate() {
             let y = body_top + ROW * (k as f64 + 0.5);
-            let colour = if r.solid { MAIN } else { MUTED };
-            let fill = if r.solid { colour } else { "white" };
+            let colour = match r.style {
+                Style::Baseline => INK,
+                Style::Competitive => MAIN,
+                Style::Other => MUTED,
+            };
+            let fill = if r.style == Style::Other {
+                "white"
+            } else {
+                colour
+            };
             let _ = writeln!(
                 out,
                 r#"<text x="{:.1}" y="{:.1}" text-anchor="end" fill="{INK}">{}</text>"#,
@@ -170,6 +195,11 @@ pub fn svg(audit: &Audit) -> String {
         );
         top = axis_y + AXIS_H - 4.0;
     }
+    let _ = writeln!(
+        out,
+        r#"<text x="8" y="{:.1}" fill="{INK}" font-size="10">● baseline (black) and competitive variants, within the ΔBIC limit of the best (blue); ○ other variants and subsets; band: baseline ±1σ</text>"#,
+        height - 6.0
+    );
     out.push_str("</svg>\n");
     out
 }

@@ -22,8 +22,8 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::PlanetValues;
-use super::common::Refitter;
-use crate::data::{Indicator, RvSet};
+use super::common::{Refitter, centred_indicators};
+use crate::data::RvSet;
 use crate::fit::{Fit, FitOptions, PlanetSpec, fit, next_label};
 use crate::model::point_log_likelihood;
 use crate::periodogram::sinusoid_at;
@@ -259,37 +259,6 @@ fn near_two_to_one(specs: &[PlanetSpec]) -> Vec<(usize, usize)> {
         }
     }
     pairs
-}
-
-/// The set with each indicator centred on its mean within each instrument (missing
-/// values stay missing), so a single coefficient per indicator does not mix instruments'
-/// zero points.
-fn centred_indicators(set: &RvSet) -> RvSet {
-    let mut out = set.clone();
-    out.indicators = set
-        .indicators
-        .iter()
-        .map(|ind| {
-            let mut values = ind.values.clone();
-            for k in 0..set.n_instruments() {
-                let idx: Vec<usize> = (0..set.len())
-                    .filter(|&j| set.instrument[j] == k && ind.values[j].is_finite())
-                    .collect();
-                if idx.is_empty() {
-                    continue;
-                }
-                let mean = idx.iter().map(|&j| ind.values[j]).sum::<f64>() / idx.len() as f64;
-                for j in idx {
-                    values[j] -= mean;
-                }
-            }
-            Indicator {
-                name: ind.name.clone(),
-                values,
-            }
-        })
-        .collect();
-    out
 }
 
 /// Cross-validates one fewer, the same, and one more signal; `None` when there are too few
