@@ -224,9 +224,10 @@ pub fn audit(
     timing.aliases_s = clock.elapsed().as_secs_f64();
 
     let clock = Instant::now();
+    let more = variants::fit_one_more(&refit);
     let (mut variant_tables, signal_count) = rayon::join(
-        || variants::variants(&refit),
-        || variants::cross_validate(&refit),
+        || variants::variants(&refit, more.as_ref()),
+        || variants::cross_validate(&refit, more.as_ref()),
     );
     timing.variants_s = clock.elapsed().as_secs_f64();
 

@@ -94,8 +94,9 @@ struct Refit {
     fit: Fit,
 }
 
-/// The model variants of the whole system, tabulated for each base planet (same order).
-pub fn variants(refit: &Refitter) -> Vec<Vec<Variant>> {
+/// The model variants of the whole system, tabulated for each base planet (same order);
+/// `more` is the fit with one more signal ([`fit_one_more`]).
+pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
     let base = refit.base;
     let opts = refit.options();
     let specs = refit.specs();
@@ -138,15 +139,6 @@ pub fn variants(refit: &Refitter) -> Vec<Vec<Variant>> {
         fewer.remove(j);
         jobs.push((format!("without {}", s.label), set.clone(), fewer, opts));
     }
-    if let Some(more) = one_more(refit) {
-        let added = more.last().map_or(0.0, |s| s.period_d);
-        jobs.push((
-            format!("one more signal ({added:.4} d)"),
-            set.clone(),
-            more,
-            opts,
-        ));
-    }
     if !set.indicators.is_empty() && opts.regressors == 0 {
         let names: Vec<&str> = set.indicators.iter().map(|i| i.name.as_str()).collect();
         jobs.push((
@@ -187,8 +179,12 @@ pub fn variants(refit: &Refitter) -> Vec<Vec<Variant>> {
             fit(&data, &planets, &o).ok().map(|fit| Refit { name, fit })
         })
         .collect();
+    let more_name = more
+        .and_then(|f| f.planets.last())
+        .map(|p| format!("one more signal ({:.4} d)", p.period_d.value));
     let all: Vec<(&str, &Fit)> = std::iter::once(("baseline", base))
         .chain(fits.iter().map(|r| (r.name.as_str(), &r.fit)))
+        .chain(more_name.as_deref().zip(more))
         .collect();
     let best_bic = all
         .iter()
@@ -218,6 +214,13 @@ pub fn variants(refit: &Refitter) -> Vec<Vec<Variant>> {
                 .collect()
         })
         .collect()
+}
+
+/// The base fit refitted with one more signal, started at the strongest peak of its
+/// residual periodogram; `None` when the periodogram, the sinusoid or the fit fails.
+pub fn fit_one_more(refit: &Refitter) -> Option<Fit> {
+    let specs = one_more(refit)?;
+    fit(refit.set, &specs, &refit.options()).ok()
 }
 
 /// The base specs plus a signal at the strongest peak of the base fit's residual
@@ -261,9 +264,10 @@ fn near_two_to_one(specs: &[PlanetSpec]) -> Vec<(usize, usize)> {
     pairs
 }
 
-/// Cross-validates one fewer, the same, and one more signal; `None` when there are too few
+/// Cross-validates one fewer, the same, and one more signal (each training fit started
+/// from the full-data fit: `more` is [`fit_one_more`]); `None` when there are too few
 /// points for the folds.
-pub fn cross_validate(refit: &Refitter) -> Option<CrossValidation> {
+pub fn cross_validate(refit: &Refitter, more: Option<&Fit>) -> Option<CrossValidation> {
     let set = refit.set;
     let folds = refit.settings.cv_folds.max(2);
     let opts = refit.options();
@@ -290,9 +294,9 @@ pub fn cross_validate(refit: &Refitter) -> Option<CrossValidation> {
         ));
     }
     models.push((n_base, "as fitted".into(), base_specs.clone()));
-    if let Some(more) = one_more(refit) {
-        let p = more.last().map_or(0.0, |s| s.period_d);
-        models.push((n_base + 1, format!("plus {p:.4} d"), more));
+    if let Some(more) = more {
+        let p = more.planets.last().map_or(0.0, |s| s.period_d.value);
+        models.push((n_base + 1, format!("plus {p:.4} d"), more.planet_specs()));
     }
     let n = set.len();
     let block = n / folds;
