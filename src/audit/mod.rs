@@ -176,7 +176,9 @@ pub struct Audit {
     pub planets: Vec<PlanetAudit>,
     /// Seasons found in the data (shared by all planets).
     pub seasons: Vec<Season>,
-    /// Time per part.
+    /// Time per part (in the summary, not in results.json, which must not change between
+    /// identical runs).
+    #[serde(skip)]
     pub timing: Timing,
 }
 
