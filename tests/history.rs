@@ -112,3 +112,89 @@ fn changes_needs_two_runs() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("at least two complete runs"));
 }
+
+#[test]
+fn add_epochs_checks_against_the_target_and_edits_no_data_file() {
+    let dir = tempfile::tempdir().unwrap();
+    copy_demo(dir.path());
+    let quill = dir.path().join("quill.csv");
+    let full = std::fs::read_to_string(&quill).unwrap();
+    let lines: Vec<&str> = full.lines().collect();
+    let held_back = 15;
+    let keep = lines.len() - held_back;
+    std::fs::write(&quill, lines[..keep].join("\n") + "\n").unwrap();
+    let new = dir.path().join("new-night.csv");
+    std::fs::write(
+        &new,
+        format!("{}\n{}\n", lines[0], lines[keep..].join("\n")),
+    )
+    .unwrap();
+    let target = dir.path().join("ostrel-12.toml");
+    let (target, new_s) = (target.to_str().unwrap(), new.to_str().unwrap());
+    let data_files = ["quill.csv", "tarn.txt", "fennick.tsv", "new-night.csv"];
+    let snapshot = || -> Vec<Vec<u8>> {
+        data_files
+            .iter()
+            .map(|f| std::fs::read(dir.path().join(f)).unwrap())
+            .collect()
+    };
+    let before = snapshot();
+
+    let out = heft(&[
+        "add-epochs",
+        target,
+        new_s,
+        "--instrument",
+        "Quill",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let doc: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(doc["n_added"], held_back);
+    assert_eq!(doc["per_instrument"][0], serde_json::json!(["Quill", 76]));
+    let copy = Path::new(doc["copy"].as_str().unwrap());
+    assert!(copy.starts_with(dir.path().join("epochs")) && copy.exists());
+    assert_eq!(snapshot(), before, "no data file was edited");
+    let text = std::fs::read_to_string(target).unwrap();
+    assert_eq!(text.matches("[[data]]").count(), 4);
+
+    // The same rows again: exact duplicates of the epochs just added.
+    let again = heft(&["add-epochs", target, new_s, "--instrument", "Quill"]);
+    assert_eq!(again.status.code(), Some(2));
+    let msg = String::from_utf8_lossy(&again.stderr);
+    assert!(
+        msg.contains("duplicate of") && msg.contains("new-night.csv"),
+        "{msg}"
+    );
+    // One epoch with another value: a conflict, named with file and row.
+    let mut fields: Vec<String> = lines[keep].split(',').map(str::to_string).collect();
+    fields[1] = format!("{:.2}", fields[1].parse::<f64>().unwrap() + 5.0);
+    let changed = fields.join(",");
+    let conflict = dir.path().join("conflict.csv");
+    let mut fresh: Vec<String> = lines[keep].split(',').map(str::to_string).collect();
+    fresh[0] = format!("{:.6}", fresh[0].parse::<f64>().unwrap() + 0.25);
+    let fresh = fresh.join(",");
+    std::fs::write(&conflict, format!("{}\n{changed}\n{fresh}\n", lines[0])).unwrap();
+    let out = heft(&[
+        "add-epochs",
+        target,
+        conflict.to_str().unwrap(),
+        "--instrument",
+        "Quill",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let msg = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        msg.contains("conflicts with") && msg.contains("conflict.csv"),
+        "{msg}"
+    );
+    assert_eq!(
+        std::fs::read_to_string(target).unwrap(),
+        text,
+        "a refused addition leaves the target as it was"
+    );
+}

@@ -6,6 +6,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod add_epochs;
 mod audit;
 mod batch;
 mod changes;
@@ -36,6 +37,8 @@ enum Command {
     Audit(audit::AuditArgs),
     /// Run the whole pipeline for a target file into a new run folder.
     Run(run::RunArgs),
+    /// Add a new RV file to a target, checked against the epochs it already has.
+    AddEpochs(add_epochs::AddEpochsArgs),
     /// What changed between the latest two runs of a target.
     Changes(changes::ChangesArgs),
     /// Run every target file under a folder (sharded for job arrays), or gather shards.
@@ -125,6 +128,7 @@ pub fn main() -> ExitCode {
         Command::Mass(args) => mass::run(&args),
         Command::Audit(args) => audit::run(&args),
         Command::Run(args) => run::run(&args),
+        Command::AddEpochs(args) => add_epochs::run(&args),
         Command::Changes(args) => changes::run(&args),
         Command::Batch(args) => batch::run(&args),
     };

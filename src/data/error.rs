@@ -119,6 +119,18 @@ pub enum DataErrorKind {
         /// Where the first copy is (`row 3`, or `other.csv row 3` in another file).
         first: String,
     },
+    /// One instrument has two different values at the same time.
+    #[error(
+        "conflicts with {first}: same time and instrument but rv {:.3} m/s against {:.3} m/s there",
+        rv_mps.1,
+        rv_mps.0
+    )]
+    Conflict {
+        /// Where the other value is.
+        first: String,
+        /// The two velocities, m/s (the other's, this row's).
+        rv_mps: (f64, f64),
+    },
     /// An instrument has fewer than two points, too few to fit its offset.
     #[error(
         "instrument '{instrument}' has only {n} point; each instrument needs at least 2 to fit its own offset (drop it or give it the name of another instrument)"

@@ -31,8 +31,9 @@ use super::{TimeStandard, read};
 /// file that cannot be read or holds no data rows; a wrong column count or a value that is
 /// not a number; a missing or non-finite time, rv or rv_err; an rv_err that is not
 /// positive; a time that is not a plausible date in the declared standard; RVs implausible
-/// for the declared unit; a point repeated exactly (same time, rv, rv_err and instrument);
-/// an instrument with fewer than two points.
+/// for the declared unit; a point repeated exactly (same time, rv, rv_err and instrument)
+/// or two different values at the same time for one instrument; an instrument with fewer
+/// than two points.
 pub fn load(specs: &[DataSpec]) -> Result<RvSet, DataError> {
     if specs.is_empty() {
         return Err(DataError::whole_file(Path::new(""), DataErrorKind::NoFiles));
@@ -179,8 +180,9 @@ fn same_velocity(a: f64, b: f64) -> bool {
     (a - b).abs() <= 1e-12 * a.abs().max(b.abs()) + 1e-9
 }
 
-/// Rejects a point repeated exactly: same time, rv, rv_err and instrument (up to the
-/// rounding of the same value written in another unit or time offset).
+/// Rejects two points of one instrument at the same time: a point repeated exactly (same
+/// rv and rv_err, up to the rounding of the same value written in another unit or time
+/// offset), or two different values for one exposure.
 fn check_duplicates(set: &RvSet) -> Result<(), DataError> {
     let mut order: Vec<usize> = (0..set.len()).collect();
     order.sort_by(|&a, &b| set.time_d[a].total_cmp(&set.time_d[b]));
@@ -189,20 +191,23 @@ fn check_duplicates(set: &RvSet) -> Result<(), DataError> {
             if set.time_d[b] - set.time_d[a] > SAME_TIME_D {
                 break;
             }
-            if set.instrument[a] == set.instrument[b]
-                && same_velocity(set.rv_mps[a], set.rv_mps[b])
+            if set.instrument[a] != set.instrument[b] {
+                continue;
+            }
+            let (first, second) = (a.min(b), a.max(b));
+            let o = set.origin[second];
+            let at = describe(set, first, o.file);
+            let kind = if same_velocity(set.rv_mps[a], set.rv_mps[b])
                 && same_velocity(set.err_mps[a], set.err_mps[b])
             {
-                let (first, second) = (a.min(b), a.max(b));
-                let o = set.origin[second];
-                return Err(DataError::at_row(
-                    &set.files[o.file],
-                    o.row,
-                    DataErrorKind::Duplicate {
-                        first: describe(set, first, o.file),
-                    },
-                ));
-            }
+                DataErrorKind::Duplicate { first: at }
+            } else {
+                DataErrorKind::Conflict {
+                    first: at,
+                    rv_mps: (set.rv_mps[first], set.rv_mps[second]),
+                }
+            };
+            return Err(DataError::at_row(&set.files[o.file], o.row, kind));
         }
     }
     Ok(())

@@ -6,6 +6,7 @@
 
 mod batch;
 mod changes;
+mod epochs;
 mod execute;
 
 pub use batch::{
@@ -13,6 +14,7 @@ pub use batch::{
     summary_csv,
 };
 pub use changes::{Changes, PlanetChange, changes_text, compare};
+pub use epochs::{AddError, Added, add_epochs};
 pub use execute::{Completed, RunError, execute};
 
 use std::fs;
