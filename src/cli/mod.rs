@@ -14,6 +14,7 @@ mod fit;
 mod input;
 mod mass;
 mod periodogram;
+mod plan;
 mod run;
 
 /// heft: weighs exoplanets from the reflex motion of their star.
@@ -39,6 +40,8 @@ enum Command {
     Run(run::RunArgs),
     /// Add a new RV file to a target, checked against the epochs it already has.
     AddEpochs(add_epochs::AddEpochsArgs),
+    /// Forecast the K and mass errors after more epochs; the best dates for one more.
+    Plan(plan::PlanArgs),
     /// What changed between the latest two runs of a target.
     Changes(changes::ChangesArgs),
     /// Run every target file under a folder (sharded for job arrays), or gather shards.
@@ -129,6 +132,7 @@ pub fn main() -> ExitCode {
         Command::Audit(args) => audit::run(&args),
         Command::Run(args) => run::run(&args),
         Command::AddEpochs(args) => add_epochs::run(&args),
+        Command::Plan(args) => plan::run(&args),
         Command::Changes(args) => changes::run(&args),
         Command::Batch(args) => batch::run(&args),
     };

@@ -1,5 +1,5 @@
 //! Run history of a target: what each run read (checksums, settings, version, seed), which
-//! runs are complete, and what changed between two runs.
+//! runs are complete, what changed between two runs, new epochs, and planning the next.
 //!
 //! A run folder is complete when it holds `results.json` (written last, atomically);
 //! `runs/LATEST` names the newest complete run.
@@ -8,6 +8,7 @@ mod batch;
 mod changes;
 mod epochs;
 mod execute;
+mod plan;
 
 pub use batch::{
     BatchOutcome, Discovery, Shard, ShardError, discover, gather, run_batch, shard_from_env,
@@ -16,6 +17,7 @@ pub use batch::{
 pub use changes::{Changes, PlanetChange, changes_text, compare};
 pub use epochs::{AddError, Added, add_epochs};
 pub use execute::{Completed, RunError, execute};
+pub use plan::{DateValue, Plan, PlanError, PlanRequest, PlanetForecast, plan, plan_svg};
 
 use std::fs;
 use std::io;
