@@ -99,4 +99,10 @@ fn threads_and_shards_agree_and_failures_are_contained() {
     );
     let merged = std::fs::read_to_string(dir.path().join("batch-summary.csv")).unwrap();
     assert_eq!(without_run_dir(&merged), without_run_dir(&table));
+    // The Parquet copy of the table has the same rows and typed columns.
+    use polars::prelude::*;
+    let file = std::fs::File::open(dir.path().join("batch-summary.parquet")).unwrap();
+    let df = ParquetReader::new(file).finish().unwrap();
+    assert_eq!(df.height(), merged.lines().count() - 1);
+    assert_eq!(df.column("k_mps").unwrap().dtype(), &DataType::Float64);
 }

@@ -198,3 +198,67 @@ fn add_epochs_checks_against_the_target_and_edits_no_data_file() {
         "a refused addition leaves the target as it was"
     );
 }
+
+#[test]
+fn a_killed_run_leaves_no_complete_folder_and_earlier_runs_intact() {
+    let dir = tempfile::tempdir().unwrap();
+    copy_demo(dir.path());
+    let target = dir.path().join("ostrel-12.toml");
+    let first = heft(&["run", target.to_str().unwrap()]);
+    assert!(
+        first.status.success(),
+        "{}",
+        String::from_utf8_lossy(&first.stderr)
+    );
+    let runs_dir = dir.path().join("runs");
+    let snapshot = || -> Vec<(std::path::PathBuf, Vec<u8>)> {
+        let mut files = Vec::new();
+        let mut stack = vec![runs_dir.clone()];
+        while let Some(d) = stack.pop() {
+            for e in std::fs::read_dir(&d).unwrap() {
+                let p = e.unwrap().path();
+                if p.is_dir() {
+                    stack.push(p);
+                } else {
+                    files.push((p.clone(), std::fs::read(&p).unwrap()));
+                }
+            }
+        }
+        files.sort();
+        files
+    };
+    let before = snapshot();
+
+    // A second run with sampling (minutes of work), killed after a few seconds.
+    let text = std::fs::read_to_string(&target).unwrap();
+    std::fs::write(
+        &target,
+        text.replace("[settings]", "[settings]\nsample = true"),
+    )
+    .unwrap();
+    let mut child = Command::new(env!("CARGO_BIN_EXE_heft"))
+        .args(["run", target.to_str().unwrap()])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    std::thread::sleep(std::time::Duration::from_secs(4));
+    assert!(
+        child.try_wait().unwrap().is_none(),
+        "the run was still going"
+    );
+    child.kill().unwrap();
+    child.wait().unwrap();
+
+    assert_eq!(snapshot(), before, "earlier runs and LATEST untouched");
+    let complete: Vec<_> = std::fs::read_dir(&runs_dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.join("results.json").exists())
+        .collect();
+    assert_eq!(
+        complete.len(),
+        1,
+        "no folder of the killed run looks complete"
+    );
+}

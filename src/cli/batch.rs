@@ -63,9 +63,7 @@ pub fn run(args: &BatchArgs) -> Result<ExitCode, Failure> {
         None => "batch-summary.csv".to_string(),
     };
     let summary = args.folder.join(name);
-    write_atomic(&summary, runs::summary_csv(&outcomes).as_bytes())
-        .with_context(|| format!("writing {}", summary.display()))
-        .map_err(Failure::Internal)?;
+    write_tables(&summary, &runs::summary_csv(&outcomes))?;
     let failed: Vec<_> = outcomes.iter().filter(|o| o.error.is_some()).collect();
     if args.json {
         let doc = json!({
@@ -103,6 +101,20 @@ pub fn run(args: &BatchArgs) -> Result<ExitCode, Failure> {
     })
 }
 
+/// Writes a summary table as CSV at `csv_path` and as Parquet beside it (same name,
+/// `.parquet`).
+fn write_tables(csv_path: &std::path::Path, csv: &str) -> Result<(), Failure> {
+    write_atomic(csv_path, csv.as_bytes())
+        .with_context(|| format!("writing {}", csv_path.display()))
+        .map_err(Failure::Internal)?;
+    let parquet_path = csv_path.with_extension("parquet");
+    let bytes = runs::summary_parquet(csv)
+        .map_err(|e| Failure::Internal(anyhow!("{}: {e}", parquet_path.display())))?;
+    write_atomic(&parquet_path, &bytes)
+        .with_context(|| format!("writing {}", parquet_path.display()))
+        .map_err(Failure::Internal)
+}
+
 fn gather(args: &BatchArgs) -> Result<ExitCode, Failure> {
     let mut tables = Vec::new();
     for entry in std::fs::read_dir(&args.folder)
@@ -130,9 +142,7 @@ fn gather(args: &BatchArgs) -> Result<ExitCode, Failure> {
     tables.sort();
     let merged = runs::gather(&tables).map_err(|e| input(anyhow!(e)))?;
     let out = args.folder.join("batch-summary.csv");
-    write_atomic(&out, merged.as_bytes())
-        .with_context(|| format!("writing {}", out.display()))
-        .map_err(Failure::Internal)?;
+    write_tables(&out, &merged)?;
     if args.json {
         println!("{}", json!({"merged": tables.len(), "summary": out}));
     } else {

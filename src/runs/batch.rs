@@ -235,7 +235,27 @@ pub fn run_batch(targets: &[PathBuf], threads: usize) -> Vec<BatchOutcome> {
     }
 }
 
-/// The summary table (CSV with [`SUMMARY_HEADER`]) of some outcomes.
+/// The summary table as Parquet (columns typed by polars' inference over all rows; empty
+/// fields are nulls), from its CSV text.
+///
+/// # Errors
+/// The CSV cannot be parsed or the Parquet not encoded (message from polars).
+pub fn summary_parquet(csv: &str) -> Result<Vec<u8>, String> {
+    use polars::prelude::*;
+    let mut df = CsvReadOptions::default()
+        .with_has_header(true)
+        .with_infer_schema_length(None)
+        .into_reader_with_file_handle(std::io::Cursor::new(csv.as_bytes().to_vec()))
+        .finish()
+        .map_err(|e| e.to_string())?;
+    let mut bytes = Vec::new();
+    ParquetWriter::new(&mut bytes)
+        .finish(&mut df)
+        .map_err(|e| e.to_string())?;
+    Ok(bytes)
+}
+
+/// The summary table (CSV with [`SUMMARY_HEADER`]) of some outcomes, one row per planet.
 pub fn summary_csv(outcomes: &[BatchOutcome]) -> String {
     let mut s = String::from(SUMMARY_HEADER);
     s.push('\n');

@@ -12,7 +12,7 @@ mod plan;
 
 pub use batch::{
     BatchOutcome, Discovery, Shard, ShardError, discover, gather, run_batch, shard_from_env,
-    summary_csv,
+    summary_csv, summary_parquet,
 };
 pub use changes::{Changes, PlanetChange, changes_text, compare};
 pub use epochs::{AddError, Added, add_epochs};
