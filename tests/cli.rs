@@ -526,3 +526,24 @@ fn audit_json_has_verdict_and_aliases() {
     assert_eq!(no_claim.status.code(), Some(2));
     assert!(stderr(&no_claim).contains("--period"));
 }
+
+#[test]
+fn quiet_and_verbose_modes() {
+    let data = repo("tests/reference/gls_data.csv");
+    let quiet = heft(&["--quiet", "periodogram", &data, "--nfreq", "200"]);
+    assert!(quiet.status.success());
+    assert!(quiet.stdout.is_empty() && quiet.stderr.is_empty());
+    // JSON is printed even when quiet: it is what a script asked for.
+    let json = heft(&["-q", "periodogram", &data, "--nfreq", "200", "--json"]);
+    assert!(json_of(&json)["peaks"].is_array());
+    let verbose = heft(&["periodogram", &data, "--nfreq", "200", "--verbose"]);
+    assert!(verbose.status.success());
+    let err = stderr(&verbose);
+    assert!(
+        err.contains("read 60 points") && err.contains("done in"),
+        "{err}"
+    );
+    assert!(!verbose.stdout.is_empty());
+    let both = heft(&["-q", "-v", "periodogram", &data]);
+    assert_eq!(both.status.code(), Some(2));
+}

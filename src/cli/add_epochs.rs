@@ -1,6 +1,5 @@
 //! `heft add-epochs`: add a new RV file to a target, checked against the epochs it has.
 
-use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -67,9 +66,6 @@ pub fn run(args: &AddEpochsArgs) -> Result<ExitCode, Failure> {
             counts.join(", ")
         )
     };
-    std::io::stdout()
-        .lock()
-        .write_all(text.as_bytes())
-        .map_err(|e| Failure::Internal(e.into()))?;
+    super::emit(&text, args.json)?;
     Ok(ExitCode::SUCCESS)
 }

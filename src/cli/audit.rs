@@ -1,6 +1,5 @@
 //! `heft audit`: is a claimed signal, and the mass that follows from it, robust?
 
-use std::io::Write;
 use std::process::ExitCode;
 
 use heft::audit::{self, AuditSettings, Context};
@@ -42,6 +41,7 @@ pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
     }
     let star = args.fit.star()?;
     let mut analysis = analyse(args.fit.request(star.as_ref())?)?;
+    let busy = super::spinner("auditing: aliases, model variants, jackknife");
     let labels: Vec<String> = analysis
         .search
         .fit
@@ -61,6 +61,7 @@ pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
         ..AuditSettings::default()
     };
     let result = audit::audit(&analysis, &ctx, &settings).map_err(|e| Failure::Input(e.into()))?;
+    busy.finish_and_clear();
     let robust = result.is_robust();
     analysis.audit = Some(result);
     let text = if args.fit.json() {
@@ -71,10 +72,7 @@ pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
     } else {
         summary_text(&analysis)
     };
-    std::io::stdout()
-        .lock()
-        .write_all(text.as_bytes())
-        .map_err(|e| Failure::Internal(e.into()))?;
+    super::emit(&text, args.fit.json())?;
     Ok(if robust {
         ExitCode::SUCCESS
     } else {

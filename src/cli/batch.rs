@@ -57,7 +57,9 @@ pub fn run(args: &BatchArgs) -> Result<ExitCode, Failure> {
     let threads = args
         .threads
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let busy = super::spinner(&format!("running {} target(s)", mine.len()));
     let outcomes = runs::run_batch(&mine, threads);
+    busy.finish_and_clear();
     let name = match shard {
         Some(s) => format!("batch-summary-{}-of-{}.csv", s.index, s.count),
         None => "batch-summary.csv".to_string(),
@@ -72,17 +74,19 @@ pub fn run(args: &BatchArgs) -> Result<ExitCode, Failure> {
             "skipped": skipped.iter().map(|(p, why)| json!({"file": p, "reason": why})).collect::<Vec<_>>(),
             "summary": summary,
         });
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))?
-        );
+        let text =
+            serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))? + "\n";
+        super::emit(&text, true)?;
     } else {
-        println!(
-            "{} target(s) run, {} failed; summary in {}",
-            outcomes.len(),
-            failed.len(),
-            summary.display()
-        );
+        super::emit(
+            &format!(
+                "{} target(s) run, {} failed; summary in {}\n",
+                outcomes.len(),
+                failed.len(),
+                summary.display()
+            ),
+            false,
+        )?;
         for o in &failed {
             eprintln!(
                 "failed: {}: {}",
@@ -91,7 +95,10 @@ pub fn run(args: &BatchArgs) -> Result<ExitCode, Failure> {
             );
         }
         for (p, why) in &skipped {
-            eprintln!("skipped (not a target file): {}: {why}", p.display());
+            super::note(&format!(
+                "skipped (not a target file): {}: {why}",
+                p.display()
+            ));
         }
     }
     Ok(if failed.is_empty() {
@@ -143,14 +150,15 @@ fn gather(args: &BatchArgs) -> Result<ExitCode, Failure> {
     let merged = runs::gather(&tables).map_err(|e| input(anyhow!(e)))?;
     let out = args.folder.join("batch-summary.csv");
     write_tables(&out, &merged)?;
-    if args.json {
-        println!("{}", json!({"merged": tables.len(), "summary": out}));
+    let text = if args.json {
+        format!("{}\n", json!({"merged": tables.len(), "summary": out}))
     } else {
-        println!(
-            "merged {} shard table(s) into {}",
+        format!(
+            "merged {} shard table(s) into {}\n",
             tables.len(),
             out.display()
-        );
-    }
+        )
+    };
+    super::emit(&text, args.json)?;
     Ok(ExitCode::SUCCESS)
 }

@@ -54,6 +54,6 @@ pub fn run(args: &ChangesArgs) -> Result<ExitCode, Failure> {
     } else {
         runs::changes_text(&changes)
     };
-    print!("{text}");
+    super::emit(&text, args.json)?;
     Ok(ExitCode::SUCCESS)
 }

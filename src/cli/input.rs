@@ -51,8 +51,16 @@ impl InputArgs {
                 time: self.time,
             })
             .collect();
-        data::load(&specs)
+        let set = data::load(&specs)
             .context("reading RV data")
-            .map_err(Failure::Input)
+            .map_err(Failure::Input)?;
+        super::detail(&format!(
+            "read {} points of {} instrument(s) from {} file(s), span {:.1} d",
+            set.len(),
+            set.n_instruments(),
+            specs.len(),
+            set.baseline_d()
+        ));
+        Ok(set)
     }
 }

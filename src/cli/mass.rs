@@ -165,23 +165,26 @@ pub fn run(args: &MassArgs) -> Result<ExitCode, Failure> {
         };
         let text = serde_json::to_string_pretty(&out)
             .map_err(|e| Failure::Internal(anyhow::anyhow!("cannot write JSON: {e}")))?;
-        println!("{text}");
+        super::emit(&(text + "\n"), true)?;
     } else {
-        print_text(&planet, args.seed);
+        super::emit(&text_lines(&planet, args.seed), false)?;
     }
     Ok(ExitCode::SUCCESS)
 }
 
-/// Prints the result as aligned text lines.
-fn print_text(p: &PlanetDerived, seed: u64) {
+/// The result as aligned text lines.
+fn text_lines(p: &PlanetDerived, seed: u64) -> String {
+    use std::fmt::Write;
+    let mut out = String::new();
     if p.n_draws() > 1 {
-        println!(
+        let _ = writeln!(
+            out,
             "{} Monte Carlo draws, seed {seed}; value -minus +plus (1 sigma)",
             p.n_draws()
         );
     }
-    let line = |label: &str, s: &Summary, unit: &str| {
-        println!("{label:<10} {} {unit}", format_summary(s));
+    let mut line = |label: &str, s: &Summary, unit: &str| {
+        let _ = writeln!(out, "{label:<10} {} {unit}", format_summary(s));
     };
     line("m sin i", &p.msini_mearth, "M_earth");
     line("", &p.msini_mjup, "M_jup");
@@ -205,11 +208,12 @@ fn print_text(p: &PlanetDerived, seed: u64) {
         }
     }
     if let Some(c) = p.class {
-        println!("{:<10} {c}", "class");
+        let _ = writeln!(out, "{:<10} {c}", "class");
     }
     for n in &p.notes {
-        println!("note: {n}");
+        let _ = writeln!(out, "note: {n}");
     }
+    out
 }
 
 /// `value` (four significant digits) or `value -minus +plus` with the errors to two

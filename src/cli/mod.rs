@@ -21,8 +21,65 @@ mod run;
 #[derive(Parser)]
 #[command(name = "heft", version, about)]
 struct Cli {
+    /// Print nothing but JSON (when asked for) and errors; no progress display.
+    #[arg(short, long, global = true)]
+    quiet: bool,
+    /// Also report on stderr what was read and how long each command took.
+    #[arg(short, long, global = true, conflicts_with = "quiet")]
+    verbose: bool,
     #[command(subcommand)]
     command: Command,
+}
+
+/// How much a command says: 0 quiet, 1 normal, 2 verbose.
+static VERBOSITY: std::sync::atomic::AtomicU8 = std::sync::atomic::AtomicU8::new(1);
+
+fn verbosity() -> u8 {
+    VERBOSITY.load(std::sync::atomic::Ordering::Relaxed)
+}
+
+/// Writes a command's result to stdout: JSON always, text unless quiet.
+pub fn emit(text: &str, json: bool) -> Result<(), Failure> {
+    if !json && verbosity() == 0 {
+        return Ok(());
+    }
+    use std::io::Write;
+    std::io::stdout()
+        .lock()
+        .write_all(text.as_bytes())
+        .map_err(|e| Failure::Internal(e.into()))
+}
+
+/// A note for the user on stderr (not when quiet).
+pub fn note(text: &str) {
+    if verbosity() > 0 {
+        eprintln!("{text}");
+    }
+}
+
+/// A detail on stderr, only when verbose.
+pub fn detail(text: &str) {
+    if verbosity() > 1 {
+        eprintln!("{text}");
+    }
+}
+
+/// Whether progress displays may be drawn: stderr is a terminal and not quiet.
+fn show_progress() -> bool {
+    use std::io::IsTerminal;
+    verbosity() > 0 && std::io::stderr().is_terminal()
+}
+
+/// A spinner with a message on stderr for a long step (hidden when progress is not shown);
+/// finish it with `finish_and_clear`.
+pub fn spinner(message: &str) -> indicatif::ProgressBar {
+    if !show_progress() {
+        return indicatif::ProgressBar::hidden();
+    }
+    let bar = indicatif::ProgressBar::new_spinner();
+    bar.set_message(message.to_string());
+    bar.enable_steady_tick(std::time::Duration::from_millis(120));
+    bar
 }
 
 #[derive(Subcommand)]
@@ -59,8 +116,7 @@ pub enum Failure {
 /// A progress display for the sampler: a bar on stderr when stderr is a terminal,
 /// nothing otherwise. The returned closure is handed to the pipeline.
 pub fn sampler_progress() -> (indicatif::ProgressBar, impl FnMut(&heft::sample::Progress)) {
-    use std::io::IsTerminal;
-    let bar = if std::io::stderr().is_terminal() {
+    let bar = if show_progress() {
         let bar = indicatif::ProgressBar::new(0);
         bar.set_style(
             indicatif::ProgressStyle::with_template(
@@ -95,20 +151,19 @@ pub fn print_results(analysis: &heft::pipeline::Analysis, json: bool) -> Result<
     } else {
         heft::report::summary_text(analysis)
     };
-    use std::io::Write;
-    std::io::stdout()
-        .lock()
-        .write_all(text.as_bytes())
-        .map_err(|e| Failure::Internal(e.into()))?;
+    emit(&text, json)?;
     if let Some(p) = &analysis.posterior
         && !p.chains.diagnostics.converged
     {
-        eprintln!("warning: the sampler {}", p.chains.diagnostics.reason);
+        note(&format!(
+            "warning: the sampler {}",
+            p.chains.diagnostics.reason
+        ));
         return Ok(ExitCode::from(3));
     }
     match &analysis.audit {
         Some(a) if !a.is_robust() => {
-            eprintln!("audit verdict: {}", a.verdict);
+            note(&format!("audit verdict: {}", a.verdict));
             Ok(ExitCode::from(4))
         }
         _ => Ok(ExitCode::SUCCESS),
@@ -125,6 +180,15 @@ pub fn main() -> ExitCode {
             return ExitCode::from(code);
         }
     };
+    let level = if cli.quiet {
+        0
+    } else if cli.verbose {
+        2
+    } else {
+        1
+    };
+    VERBOSITY.store(level, std::sync::atomic::Ordering::Relaxed);
+    let start = std::time::Instant::now();
     let result = match cli.command {
         Command::Periodogram(args) => periodogram::run(&args),
         Command::Fit(args) => fit::run(&args),
@@ -136,6 +200,7 @@ pub fn main() -> ExitCode {
         Command::Changes(args) => changes::run(&args),
         Command::Batch(args) => batch::run(&args),
     };
+    detail(&format!("done in {:.1} s", start.elapsed().as_secs_f64()));
     match result {
         Ok(code) => code,
         Err(Failure::Input(e)) => {

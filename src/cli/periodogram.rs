@@ -2,11 +2,10 @@
 //! (Baluev and bootstrap) and aliases, the spectral window's peaks; optional table and
 //! SVG figure.
 
-use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use anyhow::{Context, anyhow};
+use anyhow::Context;
 use heft::data::RvSet;
 use heft::periodogram::{self, Grid, Method, OverviewSettings};
 use heft::report::write_atomic;
@@ -113,8 +112,7 @@ pub fn run(args: &PeriodogramArgs) -> Result<ExitCode, Failure> {
         let title = format!("GLS periodogram of {}", names.join(", "));
         write_file(path, &periodogram::svg(&ov, &title))?;
     }
-    let mut out = std::io::stdout().lock();
-    let written = if args.json {
+    let text = if args.json {
         let mut doc = json!({
             "schema": "heft-results/1",
             "n_points": set.len(),
@@ -123,15 +121,11 @@ pub fn run(args: &PeriodogramArgs) -> Result<ExitCode, Failure> {
         if let (Some(doc), serde_json::Value::Object(rest)) = (doc.as_object_mut(), ov.to_json()) {
             doc.extend(rest);
         }
-        writeln!(
-            out,
-            "{}",
-            serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))?
-        )
+        serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.into()))? + "\n"
     } else {
-        write!(out, "{}", text_report(&set, &ov))
+        text_report(&set, &ov)
     };
-    written.map_err(|e| Failure::Internal(anyhow!(e)))?;
+    super::emit(&text, args.json)?;
     Ok(ExitCode::SUCCESS)
 }
 

@@ -2,7 +2,6 @@
 //! more epoch helps most.
 
 use std::fmt::Write as _;
-use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -45,8 +44,10 @@ pub fn run(args: &PlanArgs) -> Result<ExitCode, Failure> {
     let mut target = heft::target::load(&args.target).map_err(|e| Failure::Input(e.into()))?;
     target.settings.sample = false;
     target.settings.audit = false;
-    let analysis =
-        heft::pipeline::run_target(&target, &mut |_| {}).map_err(|e| Failure::Input(e.into()))?;
+    let busy = super::spinner("fitting the target");
+    let analysis = heft::pipeline::run_target(&target, &mut |_| {});
+    busy.finish_and_clear();
+    let analysis = analysis.map_err(|e| Failure::Input(e.into()))?;
     let set = &analysis.set;
     let instrument = set
         .instruments
@@ -113,9 +114,6 @@ pub fn run(args: &PlanArgs) -> Result<ExitCode, Failure> {
         }
         s
     };
-    std::io::stdout()
-        .lock()
-        .write_all(text.as_bytes())
-        .map_err(|e| Failure::Internal(e.into()))?;
+    super::emit(&text, args.json)?;
     Ok(ExitCode::SUCCESS)
 }

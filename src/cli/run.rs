@@ -36,7 +36,7 @@ pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
     })?;
     let code = print_results(&done.analysis, args.json)?;
     if !args.json {
-        eprintln!("results written to {}", done.dir.display());
+        super::note(&format!("results written to {}", done.dir.display()));
     }
     Ok(code)
 }
