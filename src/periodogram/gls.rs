@@ -41,6 +41,7 @@ impl Sums {
     }
 
     /// `p = (SS YC² + CC YS² − 2 CS YC YS)/(YY D)`, clamped to [0, 1] against rounding.
+    #[inline]
     fn power(&self) -> f64 {
         let d = self.det();
         if !(d > 0.0) || !(self.yy > 0.0) {
@@ -71,9 +72,27 @@ pub(super) struct Raw {
     pub(super) ys: Vec<f64>,
     pub(super) cc: Vec<f64>,
     pub(super) cs: Vec<f64>,
+    /// `SS`: `Σ w sin²` about the instruments' means, set by `Prepared::centre` (which
+    /// centres `cc` and `cs` likewise).
+    ss: Vec<f64>,
     /// Per instrument `k`: Σ w cos at `c_k[k * len + j]`, likewise `s_k`.
     pub(super) c_k: Vec<f64>,
     pub(super) s_k: Vec<f64>,
+}
+
+impl Raw {
+    /// Accumulators for `len` frequencies and `n_inst` instruments, all zero.
+    pub(super) fn zeros(len: usize, n_inst: usize) -> Raw {
+        Raw {
+            yc: vec![0.0; len],
+            ys: vec![0.0; len],
+            cc: vec![0.0; len],
+            cs: vec![0.0; len],
+            ss: vec![0.0; len],
+            c_k: vec![0.0; n_inst * len],
+            s_k: vec![0.0; n_inst * len],
+        }
+    }
 }
 
 impl<'a> Prepared<'a> {
@@ -138,15 +157,7 @@ impl<'a> Prepared<'a> {
     }
 
     fn accumulate(&self, f0: f64, df: f64, len: usize) -> Raw {
-        let n_inst = self.inst_weight.len();
-        let mut r = Raw {
-            yc: vec![0.0; len],
-            ys: vec![0.0; len],
-            cc: vec![0.0; len],
-            cs: vec![0.0; len],
-            c_k: vec![0.0; n_inst * len],
-            s_k: vec![0.0; n_inst * len],
-        };
+        let mut r = Raw::zeros(len, self.inst_weight.len());
         for i in 0..self.time.len() {
             let t = self.time[i];
             let (w, wy) = (self.w[i], self.wy[i]);
@@ -170,37 +181,61 @@ impl<'a> Prepared<'a> {
         r
     }
 
-    fn sums(&self, r: &Raw, j: usize, len: usize) -> Sums {
-        let (mut cc, mut ss, mut cs) = (r.cc[j], 1.0 - r.cc[j], r.cs[j]);
+    /// Takes each instrument's weighted mean out of `CC` and `CS`, and sets `SS`
+    /// (`Σ w = 1`), at the first `m` of the `len` frequencies of `r`.
+    fn centre(&self, r: &mut Raw, len: usize, m: usize) {
+        for (ss, cc) in r.ss[..m].iter_mut().zip(&r.cc) {
+            *ss = 1.0 - cc;
+        }
         for (k, &wk) in self.inst_weight.iter().enumerate() {
             if wk > 0.0 {
-                let (c, s) = (r.c_k[k * len + j], r.s_k[k * len + j]);
-                cc -= c * c / wk;
-                ss -= s * s / wk;
-                cs -= c * s / wk;
+                let c_k = &r.c_k[k * len..k * len + m];
+                let s_k = &r.s_k[k * len..k * len + m];
+                let sums = r.cc.iter_mut().zip(r.ss.iter_mut()).zip(r.cs.iter_mut());
+                for (((cc, ss), cs), (&c, &s)) in sums.zip(c_k.iter().zip(s_k)) {
+                    *cc -= c * c / wk;
+                    *ss -= s * s / wk;
+                    *cs -= c * s / wk;
+                }
             }
         }
+    }
+
+    /// The sums at frequency `j` of `r`, once centred.
+    fn sums(&self, r: &Raw, j: usize) -> Sums {
         Sums {
             yy: self.yy,
             yc: r.yc[j],
             ys: r.ys[j],
-            cc,
-            ss,
-            cs,
+            cc: r.cc[j],
+            ss: r.ss[j],
+            cs: r.cs[j],
         }
     }
 
     /// Power at grid frequencies `start .. start + out.len()`.
     pub(super) fn block(&self, grid: &Grid, start: usize, out: &mut [f64]) {
         let len = out.len();
-        let raw = self.accumulate(grid.frequency(start), grid.df, len);
-        self.powers(&raw, 0, len, out);
+        let mut raw = self.accumulate(grid.frequency(start), grid.df, len);
+        self.powers(&mut raw, len, out);
     }
 
-    /// Power from accumulators `raw` (of `len` frequencies) at `first .. first + out.len()`.
-    pub(super) fn powers(&self, raw: &Raw, first: usize, len: usize, out: &mut [f64]) {
-        for (j, p) in out.iter_mut().enumerate() {
-            *p = self.sums(raw, first + j, len).power();
+    /// Power from accumulators `raw` (of `len` frequencies) at the first `out.len()`.
+    pub(super) fn powers(&self, raw: &mut Raw, len: usize, out: &mut [f64]) {
+        self.centre(raw, len, out.len());
+        let y = raw.yc.iter().zip(&raw.ys);
+        let t = raw.cc.iter().zip(&raw.ss).zip(&raw.cs);
+        for (p, ((&yc, &ys), ((&cc, &ss), &cs))) in out.iter_mut().zip(y.zip(t)) {
+            let yy = self.yy;
+            *p = Sums {
+                yy,
+                yc,
+                ys,
+                cc,
+                ss,
+                cs,
+            }
+            .power();
         }
     }
 }
@@ -242,8 +277,9 @@ impl Sinusoid {
 /// As [`super::compute`].
 pub fn sinusoid_at(set: &RvSet, jitters_mps: &[f64], f: f64) -> Result<Sinusoid, PeriodogramError> {
     let prep = Prepared::new(set, jitters_mps)?;
-    let raw = prep.accumulate(f, 0.0, 1);
-    let sums = prep.sums(&raw, 0, 1);
+    let mut raw = prep.accumulate(f, 0.0, 1);
+    prep.centre(&mut raw, 1, 1);
+    let sums = prep.sums(&raw, 0);
     let (a, b) = sums.coefficients();
     let offsets_mps = prep
         .inst_weight

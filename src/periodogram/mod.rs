@@ -54,16 +54,6 @@ pub enum PeriodogramError {
         "a grid of {0} frequencies is larger than the {MAX_GRID} allowed; use fewer points (--nfreq), a narrower range or a coarser step"
     )]
     TooLarge(usize),
-    /// The fast method would need more memory than allowed.
-    #[error(
-        "the fast method would need {gib:.1} GiB of memory for {n} frequencies (limit 8 GiB); use fewer frequencies (--nfreq), a narrower range or a coarser step"
-    )]
-    Memory {
-        /// Memory needed, GiB.
-        gib: f64,
-        /// Grid size.
-        n: usize,
-    },
     /// Fast-method tolerance out of range.
     #[error("the fast method's tolerance must be between {MIN_TOLERANCE:e} and 0.1, got {0}")]
     Tolerance(f64),
@@ -221,8 +211,7 @@ pub fn compute(
 /// As [`compute`], with the sums evaluated by `method`.
 ///
 /// # Errors
-/// As [`compute`]; for [`Method::Fast`] also a tolerance out of range or a grid whose
-/// transforms would not fit in memory.
+/// As [`compute`]; for [`Method::Fast`] also a tolerance out of range.
 pub fn compute_with(
     set: &RvSet,
     jitters_mps: &[f64],
@@ -236,13 +225,7 @@ pub fn compute_with(
             .par_chunks_mut(gls::BLOCK)
             .enumerate()
             .for_each(|(b, out)| prep.block(grid, b * gls::BLOCK, out)),
-        Method::Fast { tolerance } => {
-            let raw = fast::raw_sums(&prep, grid, tolerance)?;
-            power
-                .par_chunks_mut(gls::BLOCK)
-                .enumerate()
-                .for_each(|(b, out)| prep.powers(&raw, b * gls::BLOCK, grid.n, out));
-        }
+        Method::Fast { tolerance } => fast::powers(&prep, grid, tolerance, &mut power)?,
     }
     Ok(Periodogram {
         grid: *grid,

@@ -22,14 +22,14 @@ const SEARCH_OVERSAMPLE: f64 = 10.0;
 /// Spectral window power `|W(f)|²` on `grid`, in [0, 1].
 ///
 /// # Errors
-/// As [`super::compute`] (too few points, zero baseline), or a grid too large for memory.
+/// As [`super::compute`] (too few points, zero baseline).
 pub fn spectral_window(
     set: &RvSet,
     jitters_mps: &[f64],
     grid: &Grid,
 ) -> Result<Vec<f64>, PeriodogramError> {
     let prep = gls::Prepared::new(set, jitters_mps)?;
-    let sums = fast::exp_sums(prep.time, &prep.w, grid)?;
+    let sums = fast::exp_sums(prep.time, &prep.w, grid);
     Ok(sums.iter().map(|z| z.norm_sqr().min(1.0)).collect())
 }
 
