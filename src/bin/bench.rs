@@ -1,6 +1,7 @@
 //! Benchmarks (not tests): likelihood evaluations per second, Kepler solves per second
 //! against a plain Newton iteration measured in the same run, and wall time to a
-//! converged posterior on the demo target, and the demo's audit (time per part).
+//! converged posterior on the demo target, the demo's audit (time per part), and batch
+//! throughput (targets per minute).
 //!
 //! Run with `cargo run --bin bench [-- DEMO.toml]` (default `data-demo/ostrel-12.toml`).
 
@@ -120,6 +121,50 @@ fn audit_timing(demo: &str) {
     }
 }
 
+/// Writes an invented single-planet target (`n` epochs of a sinusoid plus deterministic
+/// noise) into `dir/name/`; `full` turns on sampling and the audit.
+fn small_target(dir: &std::path::Path, name: &str, n: usize, full: bool) -> std::path::PathBuf {
+    let sub = dir.join(name);
+    std::fs::create_dir_all(&sub).expect("temporary folder");
+    let period = 4.1 + 0.37 * name.len() as f64;
+    let mut csv = String::from("time,rv,rv_err\n");
+    for k in 0..n {
+        let t = 2_460_000.0 + 1.9 * k as f64 + 0.3 * (1.7 * k as f64).sin();
+        let rv = 12.0 * (std::f64::consts::TAU * t / period).sin() + 1.5 * (k as f64 * 2.3).cos();
+        csv.push_str(&format!("{t:.5},{rv:.3},1.5\n"));
+    }
+    std::fs::write(sub.join("rv.csv"), csv).expect("write data");
+    let target = sub.join("target.toml");
+    std::fs::write(
+        &target,
+        format!(
+            "name = \"{name}\"\n[star]\nmass_msun = 1.0\nmass_err_msun = 0.05\n[[data]]\nfile = \"rv.csv\"\n[settings]\norbit = \"circular\"\ntrend = 0\nmax_signals = 1\ndraws = 2000\nsample = {full}\naudit = {full}\n"
+        ),
+    )
+    .expect("write target");
+    target
+}
+
+/// Batch throughput in targets per minute on 2 threads: small targets (fit and derivation)
+/// and full ones (posterior and audit).
+fn batch_throughput() {
+    let dir = std::env::temp_dir().join(format!("heft-bench-{}", std::process::id()));
+    for (kind, count, full) in [("small", 16, false), ("full", 4, true)] {
+        let targets: Vec<std::path::PathBuf> = (0..count)
+            .map(|i| small_target(&dir, &format!("{kind}{i:02}"), 40, full))
+            .collect();
+        let start = Instant::now();
+        let outcomes = heft::runs::run_batch(&targets, 2);
+        let secs = start.elapsed().as_secs_f64();
+        let failed = outcomes.iter().filter(|o| o.error.is_some()).count();
+        println!(
+            "batch of {count} {kind} targets (40 epochs, 2 threads): {secs:.1} s, {:.0} targets/min, {failed} failed",
+            60.0 * count as f64 / secs
+        );
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
 fn main() {
     let demo = std::env::args()
         .nth(1)
@@ -183,4 +228,5 @@ fn main() {
         Err(e) => println!("demo {demo}: {e}"),
     }
     audit_timing(&demo);
+    batch_throughput();
 }
