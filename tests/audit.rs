@@ -133,7 +133,11 @@ fn decisive_aliases_are_resolved_whichever_is_claimed() {
                 if pa.verdict != Verdict::Robust {
                     println!("claim {claim}, realisation {r}: {:?}", pa.reasons);
                 }
-                (close(pa.preferred_period_d, P_TRUE), pa.verdict)
+                // The rest of the audit is of the preferred period's fit.
+                let audited_at = pa.variants[0].planet.as_ref().unwrap().period_d;
+                let ranked = close(pa.preferred_period_d, P_TRUE);
+                assert!(!ranked || !pa.aliases.decisive || close(audited_at, P_TRUE));
+                (ranked, pa.verdict)
             })
             .collect();
         let ranked = outcomes.iter().filter(|o| o.0).count();

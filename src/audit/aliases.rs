@@ -25,7 +25,7 @@ use serde::Serialize;
 use super::common::{Refitter, Stream, rng};
 use super::{AuditError, PlanetValues};
 use crate::data::RvSet;
-use crate::fit::{PlanetSpec, fit};
+use crate::fit::{Fit, PlanetSpec, fit};
 use crate::orbit::Orbit;
 use crate::periodogram::{sinusoid_at, window_peaks};
 
@@ -87,12 +87,13 @@ pub struct AliasTest {
     pub decisive: bool,
 }
 
-/// Runs the alias test for base planet `i`.
+/// Runs the alias test for base planet `i`; with it, the refit at the preferred candidate
+/// when that is decisively better than the claimed period.
 ///
 /// # Errors
 /// [`AuditError`] when a periodogram cannot be computed.
-pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
-    let base = refit.base;
+pub fn test(refit: &Refitter, i: usize) -> Result<(AliasTest, Option<Fit>), AuditError> {
+    let base = &refit.base;
     let est = &base.planets[i];
     let claimed = refit.values_of(est.period_d.value, est.k_mps, est.ecc.value, i);
     let f0 = 1.0 / est.period_d.value;
@@ -109,7 +110,7 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
         simulation: None,
     };
     if refit.has_transit(i) {
-        return Ok(AliasTest {
+        let test = AliasTest {
             tested: false,
             notes: vec!["period set by the transit ephemeris: RV aliases not considered".into()],
             preferred_period_d: est.period_d.value,
@@ -117,7 +118,8 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
             lead_lnl: f64::INFINITY,
             explained_by_period_d: None,
             decisive: true,
-        });
+        };
+        return Ok((test, None));
     }
     let span = refit.set.baseline_d();
     let mut freqs: Vec<(f64, String)> = Vec::new();
@@ -143,7 +145,7 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
         }
     }
     let mut notes = Vec::new();
-    let refits: Vec<Option<(AliasCandidate, Orbit)>> = freqs
+    let refits: Vec<Option<(AliasCandidate, Orbit, Fit)>> = freqs
         .par_iter()
         .map(|(fa, rel)| {
             let sine = sinusoid_at(&residual, jit, *fa).ok()?;
@@ -170,21 +172,28 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
                     simulation: None,
                 },
                 orbit,
+                f,
             ))
         })
         .collect();
     let mut candidates = vec![(claimed_candidate, base.params.planets[i])];
+    let mut fits: Vec<Option<Fit>> = vec![None];
     for (r, (fa, rel)) in refits.into_iter().zip(&freqs) {
         match r {
-            Some(c) => candidates.push(c),
+            Some((c, o, f)) => {
+                candidates.push((c, o));
+                fits.push(Some(f));
+            }
             None => notes.push(format!("refit at {rel} ({:.5} d) failed", 1.0 / fa)),
         }
     }
     if candidates.len() > 1 {
         simulate(refit, &residual, &mut candidates, i);
     }
-    let mut cands: Vec<AliasCandidate> = candidates.into_iter().map(|c| c.0).collect();
-    cands.sort_by(|a, b| b.log_likelihood.total_cmp(&a.log_likelihood));
+    let mut ranked: Vec<(AliasCandidate, Option<Fit>)> =
+        candidates.into_iter().map(|c| c.0).zip(fits).collect();
+    ranked.sort_by(|a, b| b.0.log_likelihood.total_cmp(&a.0.log_likelihood));
+    let (cands, mut fits): (Vec<AliasCandidate>, Vec<Option<Fit>>) = ranked.into_iter().unzip();
     let lead_lnl = match cands.get(1) {
         Some(second) => cands[0].log_likelihood - second.log_likelihood,
         None => f64::INFINITY,
@@ -201,7 +210,10 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
     let preferred_period_d = cands[0].values.period_d;
     let decisive = lead_lnl >= refit.settings.decisive_delta_lnl
         && explained.is_none_or(|p| p == preferred_period_d);
-    Ok(AliasTest {
+    // The claimed candidate carries no refit (it is the base), so a fit here means the
+    // preferred period is another one.
+    let preferred_fit = if decisive { fits.swap_remove(0) } else { None };
+    let test = AliasTest {
         tested: true,
         notes,
         candidates: cands,
@@ -209,7 +221,8 @@ pub fn test(refit: &Refitter, i: usize) -> Result<AliasTest, AuditError> {
         lead_lnl,
         explained_by_period_d: explained,
         decisive,
-    })
+    };
+    Ok((test, preferred_fit))
 }
 
 /// Complex GLS amplitude `(a, b)` and power at each frequency.

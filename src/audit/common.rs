@@ -38,8 +38,9 @@ pub fn rng(seed: u64, stream: Stream, item: u64) -> ChaCha8Rng {
 pub struct Refitter<'a> {
     /// The data.
     pub set: &'a RvSet,
-    /// The fit under audit.
-    pub base: &'a Fit,
+    /// The fit under audit (the claimed one, or the one at the periods the alias test
+    /// preferred decisively).
+    pub base: Fit,
     /// The search's frequency grid (range and step of every periodogram here).
     pub grid: Grid,
     /// Audit settings.
@@ -83,13 +84,18 @@ impl<'a> Refitter<'a> {
         let k_normals = (0..n).map(|_| StandardNormal.sample(&mut r)).collect();
         Ok(Refitter {
             set: &analysis.set,
-            base,
+            base: base.clone(),
             grid: analysis.search.steps[0].periodogram.grid,
             settings,
             star_draws,
             transit_draws,
             k_normals,
         })
+    }
+
+    /// Audits `fit` from now on (same planets and labels, e.g. at another alias).
+    pub fn rebase(&mut self, fit: Fit) {
+        self.base = fit;
     }
 
     /// Model options of the baseline.

@@ -29,7 +29,7 @@ use std::time::Instant;
 use serde::Serialize;
 
 use crate::derive::DeriveError;
-use crate::fit::FitError;
+use crate::fit::{Fit, FitError};
 use crate::periodogram::PeriodogramError;
 use crate::pipeline::Analysis;
 use crate::summary::Summary;
@@ -204,12 +204,45 @@ pub fn audit(
     if fit.planets.is_empty() {
         return Err(AuditError::NoPlanet);
     }
-    let refit = Refitter::new(analysis, ctx, settings)?;
+    let mut refit = Refitter::new(analysis, ctx, settings)?;
     let audited: Vec<usize> = (0..fit.planets.len())
         .filter(|&i| ctx.labels.is_empty() || ctx.labels.contains(&fit.planets[i].label))
         .collect();
     let mut timing = Timing::default();
     let seasons = activity::seasons(&analysis.set, settings.season_gap_d);
+
+    // Aliases first: where another period is decisively better, the rest of the audit is
+    // of the fit at that period (the claim corrected).
+    let clock = Instant::now();
+    let mut alias_tests = Vec::new();
+    let mut corrected: Vec<(usize, Fit)> = Vec::new();
+    for &i in &audited {
+        let (test, preferred) = aliases::test(&refit, i)?;
+        alias_tests.push(test);
+        corrected.extend(preferred.map(|f| (i, f)));
+    }
+    if !corrected.is_empty() {
+        let mut specs = refit.specs();
+        for (i, f) in &corrected {
+            if let Some(spec) = f.planet_specs().into_iter().nth(*i) {
+                specs[*i] = spec;
+            }
+        }
+        if let Ok(f) = crate::fit::fit(refit.set, &specs, &refit.options()) {
+            refit.rebase(f);
+            for (k, &i) in audited.iter().enumerate() {
+                if corrected.iter().any(|c| c.0 == i) {
+                    let test = &mut alias_tests[k];
+                    let note = format!(
+                        "the rest of the audit is of the fit at the preferred {:.5} d",
+                        test.preferred_period_d
+                    );
+                    test.notes.push(note);
+                }
+            }
+        }
+    }
+    timing.aliases_s = clock.elapsed().as_secs_f64();
 
     let clock = Instant::now();
     let detections = audited
@@ -217,13 +250,6 @@ pub fn audit(
         .map(|&i| limits::detection(&refit, i))
         .collect::<Result<Vec<_>, _>>()?;
     timing.detection_s = clock.elapsed().as_secs_f64();
-
-    let clock = Instant::now();
-    let alias_tests = audited
-        .iter()
-        .map(|&i| aliases::test(&refit, i))
-        .collect::<Result<Vec<_>, _>>()?;
-    timing.aliases_s = clock.elapsed().as_secs_f64();
 
     let clock = Instant::now();
     let more = variants::fit_one_more(&refit);

@@ -97,7 +97,7 @@ struct Refit {
 /// The model variants of the whole system, tabulated for each base planet (same order);
 /// `more` is the fit with one more signal ([`fit_one_more`]).
 pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
-    let base = refit.base;
+    let base = &refit.base;
     let opts = refit.options();
     let specs = refit.specs();
     let set = refit.set;
