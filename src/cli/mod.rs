@@ -12,6 +12,7 @@ mod fit;
 mod input;
 mod mass;
 mod periodogram;
+mod render;
 mod run;
 
 /// heft: weighs exoplanets from the reflex motion of their star.
@@ -32,6 +33,8 @@ enum Command {
     Mass(mass::MassArgs),
     /// Run the whole pipeline for a target file into a new run folder.
     Run(run::RunArgs),
+    /// Rebuild a run folder's report (figures, tables, report.html) from its saved results.
+    Render(render::RenderArgs),
     /// What changed between the latest two runs of a target.
     Changes(changes::ChangesArgs),
     /// Run every target file under a folder (sharded for job arrays), or gather shards.
@@ -113,6 +116,7 @@ pub fn main() -> ExitCode {
         Command::Fit(args) => fit::run(&args),
         Command::Mass(args) => mass::run(&args),
         Command::Run(args) => run::run(&args),
+        Command::Render(args) => render::run(&args),
         Command::Changes(args) => changes::run(&args),
         Command::Batch(args) => batch::run(&args),
     };

@@ -18,7 +18,7 @@ pub use fap::baluev_fap;
 pub use fast::{DEFAULT_TOLERANCE, MIN_TOLERANCE};
 pub use gls::{Sinusoid, sinusoid_at};
 pub use overview::{Candidate, Overview, OverviewSettings, Panel, overview, table_csv};
-pub use plot::svg;
+pub use plot::{power_at_fap, svg};
 pub use window::{Alias, WindowPeak, aliases, spectral_window, window_peaks};
 
 use rayon::prelude::*;

@@ -54,7 +54,7 @@ fn esc(s: &str) -> String {
 
 /// The power at which the Baluev FAP of `pg` equals `level` (bisection; FAP falls with
 /// power).
-fn power_at_fap(pg: &Periodogram, level: f64) -> f64 {
+pub fn power_at_fap(pg: &Periodogram, level: f64) -> f64 {
     let (mut lo, mut hi) = (0.0, 1.0);
     for _ in 0..60 {
         let mid = 0.5 * (lo + hi);
