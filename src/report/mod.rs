@@ -23,15 +23,12 @@ pub use draws::{draw_columns, write_draws};
 pub use files::{create_run_dir, write_atomic};
 pub use json::{SCHEMA, results_json};
 pub use mass_radius::{PlanetCloud, mass_radius_svg};
+pub use pgram::{overview_svg, periodogram_meta, periodogram_svg};
 pub use phase::{ModelPlanet, phase_svg, residuals_time_svg};
 pub use render::{RenderError, figures, render, report_files};
 pub use saved::{POINTS_FILE, Point, Points, SavedError, SavedRun, points_csv, read_run};
 pub use table::{ResultsTable, Rounded, decimals_for, round_to_uncertainty};
 pub use text::{format_summary, summary_text};
-
-/// False-alarm probabilities whose power levels `periodogram.json` records and the
-/// periodogram figure draws.
-const FAP_LEVELS: [f64; 3] = [0.1, 0.01, 0.001];
 
 use std::path::{Path, PathBuf};
 
@@ -67,17 +64,8 @@ pub fn write_run(
     }
     if let Some(ov) = &analysis.periodograms {
         write_atomic(&dir.join("periodograms.csv"), ov.table().as_bytes())?;
-        let mut peaks = ov.to_json();
-        peaks["fap_levels"] = FAP_LEVELS
-            .iter()
-            .map(|&fap| {
-                serde_json::json!({
-                    "fap": fap,
-                    "power": crate::periodogram::power_at_fap(&ov.periodogram, fap),
-                })
-            })
-            .collect();
-        let peaks = serde_json::to_vec_pretty(&peaks).map_err(std::io::Error::other)?;
+        let peaks =
+            serde_json::to_vec_pretty(&periodogram_meta(ov)).map_err(std::io::Error::other)?;
         write_atomic(&dir.join("periodogram.json"), &peaks)?;
     }
     // results.json marks a complete run; the report is drawn from the saved files.

@@ -5,8 +5,14 @@
 
 use std::fmt::Write as _;
 
+use serde_json::{Value, json};
+
 use super::figure::{ACCENT, COLUMN_PT, INK, MODEL, MUTED, Panel, Scale, Svg, TICK_PT, esc};
-use super::saved::SavedPeriodograms;
+use super::saved::{SavedPeriodograms, parse_periodogram_table};
+use crate::periodogram::{Overview, power_at_fap};
+
+/// False-alarm probabilities whose power levels are recorded and drawn.
+const FAP_LEVELS: [f64; 3] = [0.1, 0.01, 0.001];
 
 const LEFT: f64 = 34.0;
 const RIGHT: f64 = 8.0;
@@ -60,8 +66,31 @@ fn curve(svg: &mut Svg, p: &Panel, period: &[f64], power: &[f64], colour: &str, 
     svg.text(p.left + p.width - 3.0, p.top + 8.0, "end", TICK_PT, label);
 }
 
-/// The figure; `None` when the table has no `power` column or no periods.
-pub fn periodogram_svg(pg: &SavedPeriodograms, target: &str) -> Option<String> {
+/// The peaks, window peaks and aliases of `ov` ([`Overview::to_json`]) with
+/// `fap_levels`: the power at which the Baluev FAP equals 10 %, 1 % and 0.1 %.
+pub fn periodogram_meta(ov: &Overview) -> Value {
+    let mut meta = ov.to_json();
+    meta["fap_levels"] = FAP_LEVELS
+        .iter()
+        .map(|&fap| json!({"fap": fap, "power": power_at_fap(&ov.periodogram, fap)}))
+        .collect();
+    meta
+}
+
+/// The figure of an overview computed in this process (as `heft periodogram --plot`
+/// draws it); the same drawing as a run's saved periodograms.
+pub fn overview_svg(ov: &Overview, title: &str) -> Option<String> {
+    let (period_d, columns) = parse_periodogram_table(&ov.table()).ok()?;
+    let saved = SavedPeriodograms {
+        period_d,
+        columns,
+        meta: periodogram_meta(ov),
+    };
+    periodogram_svg(&saved, title)
+}
+
+/// The figure titled `title`; `None` when the table has no `power` column or no periods.
+pub fn periodogram_svg(pg: &SavedPeriodograms, title: &str) -> Option<String> {
     let power = &pg.columns.iter().find(|c| c.0 == "power")?.1;
     let (pmin, pmax) = pg
         .period_d
@@ -84,7 +113,7 @@ pub fn periodogram_svg(pg: &SavedPeriodograms, target: &str) -> Option<String> {
         .fold(0.0_f64, f64::max);
     let others: Vec<&(String, Vec<f64>)> = pg.columns.iter().filter(|c| c.0 != "power").collect();
     let height = 8.0 + MAIN_H + others.len() as f64 * (SUB_H + GAP) + 28.0;
-    let mut svg = Svg::new(height, &format!("{target}: GLS periodogram"));
+    let mut svg = Svg::new(height, title);
     let xs = Scale::Log(pmin, pmax);
     let main = Panel {
         left: LEFT,

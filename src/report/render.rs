@@ -51,7 +51,7 @@ pub fn figures(run: &SavedRun) -> Vec<PageFigure> {
     if let Some(svg) = run
         .periodograms
         .as_ref()
-        .and_then(|pg| periodogram_svg(pg, target))
+        .and_then(|pg| periodogram_svg(pg, &format!("{target}: GLS periodogram")))
     {
         figs.push(PageFigure {
             section: "periodogram",

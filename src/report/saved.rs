@@ -203,26 +203,19 @@ pub struct SavedPeriodograms {
     pub meta: Value,
 }
 
-/// Reads `periodograms.csv` and `periodogram.json`.
-///
-/// # Errors
-/// [`SavedError`] naming the file and, for a bad row, its line.
-pub fn read_periodograms(csv: &Path, json: &Path) -> Result<SavedPeriodograms, SavedError> {
-    let meta = read_json(json)?;
-    let text = fs::read_to_string(csv).map_err(|e| SavedError::new(csv, e.to_string()))?;
+/// Parses a periodogram table (`frequency,period,<column>...`, as
+/// [`crate::periodogram::Overview::table`] writes it) into periods and named columns;
+/// errors name the line.
+pub fn parse_periodogram_table(text: &str) -> Result<SavedColumns, String> {
     let mut lines = text.lines();
     let header = fields(lines.next().unwrap_or_default());
     if header.len() < 3 || header[..2] != ["frequency", "period"] {
-        return Err(SavedError::new(
-            csv,
-            "line 1: expected frequency,period and power columns",
-        ));
+        return Err("line 1: expected frequency,period and power columns".into());
     }
     let mut period_d = Vec::new();
     let mut cols: Vec<Vec<f64>> = vec![Vec::new(); header.len() - 2];
     for (k, line) in lines.enumerate() {
-        let f = fields(line);
-        let values: Option<Vec<f64>> = f.iter().map(|x| x.parse().ok()).collect();
+        let values: Option<Vec<f64>> = fields(line).iter().map(|x| x.parse().ok()).collect();
         match values {
             Some(v) if v.len() == header.len() => {
                 period_d.push(v[1]);
@@ -230,21 +223,28 @@ pub fn read_periodograms(csv: &Path, json: &Path) -> Result<SavedPeriodograms, S
                     c.push(*x);
                 }
             }
-            _ => {
-                return Err(SavedError::new(
-                    csv,
-                    format!("line {}: expected {} numbers", k + 2, header.len()),
-                ));
-            }
+            _ => return Err(format!("line {}: expected {} numbers", k + 2, header.len())),
         }
     }
+    let names = header[2..].iter().map(|h| h.to_string());
+    Ok((period_d, names.zip(cols).collect()))
+}
+
+/// Periods (days) and named power columns of a periodogram table.
+pub type SavedColumns = (Vec<f64>, Vec<(String, Vec<f64>)>);
+
+/// Reads `periodograms.csv` and `periodogram.json`.
+///
+/// # Errors
+/// [`SavedError`] naming the file and, for a bad row, its line.
+pub fn read_periodograms(csv: &Path, json: &Path) -> Result<SavedPeriodograms, SavedError> {
+    let meta = read_json(json)?;
+    let text = fs::read_to_string(csv).map_err(|e| SavedError::new(csv, e.to_string()))?;
+    let (period_d, columns) =
+        parse_periodogram_table(&text).map_err(|e| SavedError::new(csv, e))?;
     Ok(SavedPeriodograms {
         period_d,
-        columns: header[2..]
-            .iter()
-            .map(|h| h.to_string())
-            .zip(cols)
-            .collect(),
+        columns,
         meta,
     })
 }
