@@ -40,12 +40,21 @@ pub fn corner_columns(draws: &[(String, Vec<f64>)]) -> Vec<(String, Vec<f64>)> {
             let mid = 0.5 * (lo + hi);
             let mut text = format!("{symbol} ({label})");
             let mut values = v.clone();
+            let place = (hi - lo).log10().floor() as i32;
             if hi - lo < 0.01 * mid.abs() {
-                let place = (hi - lo).log10().floor() as i32;
                 let offset = (mid / 10f64.powi(place)).round() * 10f64.powi(place);
                 text.push_str(&format!(" − {offset:.*}", (-place).max(0) as usize));
                 values.iter_mut().for_each(|x| *x -= offset);
             }
+            // A spread under 0.01 is shown in units of 10^place, so ticks read 1, 2, ….
+            let unit = if place < -2 {
+                values.iter_mut().for_each(|x| *x *= 10f64.powi(-place));
+                format!("10{} {unit}", superscript(place))
+                    .trim_end()
+                    .to_string()
+            } else {
+                unit.to_string()
+            };
             if !unit.is_empty() {
                 text.push_str(&format!(" [{unit}]"));
             }
@@ -53,6 +62,17 @@ pub fn corner_columns(draws: &[(String, Vec<f64>)]) -> Vec<(String, Vec<f64>)> {
         }
     }
     out
+}
+
+/// `n` in superscript digits (e.g. ⁻⁴).
+fn superscript(n: i32) -> String {
+    n.to_string()
+        .chars()
+        .map(|c| match c {
+            '-' => '⁻',
+            d => ['⁰', '¹', '²', '³', '⁴', '⁵', '⁶', '⁷', '⁸', '⁹'][d as usize - '0' as usize],
+        })
+        .collect()
 }
 
 /// 0.5 and 99.5 percentiles of the finite values (a unit range around a constant).
@@ -145,12 +165,12 @@ pub fn corner_svg(draws: &[(String, Vec<f64>)]) -> Option<String> {
                     left + 0.5 * inner,
                     top + inner + 18.0,
                     "middle",
-                    LABEL_PT - 1.0,
+                    LABEL_PT - 2.0,
                     &cols[j].0,
                 );
             }
             if j == 0 && i > 0 {
-                p.y_label(&mut svg, &cols[i].0, 28.0);
+                svg.vertical_text(left - 28.0, top + 0.5 * inner, LABEL_PT - 2.0, &cols[i].0);
             }
         }
     }
@@ -190,7 +210,7 @@ mod tests {
             (0..100).map(|i| 47.3712 + 1e-4 * i as f64).collect(),
         )];
         let cols = corner_columns(&narrow);
-        assert_eq!(cols[0].0, "P (c) − 47.376 [d]");
-        assert!(cols[0].1.iter().all(|x| x.abs() < 0.01));
+        assert_eq!(cols[0].0, "P (c) − 47.376 [10⁻³ d]");
+        assert!(cols[0].1.iter().all(|x| x.abs() < 10.0));
     }
 }

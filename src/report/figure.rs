@@ -101,11 +101,11 @@ impl Svg {
         );
     }
 
-    /// Text rotated by −90° (a y-axis label) centred on (x, y).
-    pub fn vertical_text(&mut self, x: f64, y: f64, s: &str) {
+    /// Text of `size` pt rotated by −90° (a y-axis label) centred on (x, y).
+    pub fn vertical_text(&mut self, x: f64, y: f64, size: f64, s: &str) {
         let _ = writeln!(
             self.body,
-            r#"<text transform="translate({x:.2},{y:.2}) rotate(-90)" text-anchor="middle" font-size="{LABEL_PT}">{}</text>"#,
+            r#"<text transform="translate({x:.2},{y:.2}) rotate(-90)" text-anchor="middle" font-size="{size}">{}</text>"#,
             esc(s)
         );
     }
@@ -406,7 +406,12 @@ impl Panel {
 
     /// A label rotated left of the panel, `offset` pt from its edge.
     pub fn y_label(&self, svg: &mut Svg, s: &str, offset: f64) {
-        svg.vertical_text(self.left - offset, self.top + 0.5 * self.height, s);
+        svg.vertical_text(
+            self.left - offset,
+            self.top + 0.5 * self.height,
+            LABEL_PT,
+            s,
+        );
     }
 }
 

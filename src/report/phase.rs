@@ -311,6 +311,7 @@ pub fn residuals_time_svg(points: &Points, jit: &BTreeMap<String, f64>) -> Strin
     svg.vertical_text(
         10.0,
         0.5 * (gap + names.len() as f64 * (panel_h + gap)),
+        LABEL_PT,
         "O−C [m/s]",
     );
     svg.finish()
