@@ -32,5 +32,4 @@ pub mod report;
 pub mod runs;
 pub mod sample;
 pub mod summary;
-pub mod svg;
 pub mod target;

@@ -214,7 +214,7 @@ fn clean_signal_is_robust_and_variants_agree() {
     assert_eq!(pa.activity.seasons.len(), 2);
     assert!(pa.activity.season_p.unwrap() > 0.01);
     // The figure has one estimate per variant and jackknife subset shown.
-    let svg = audit::svg(&a);
+    let svg = heft::report::audit_svg(&serde_json::to_value(&a).unwrap());
     let shown = pa.variants.iter().filter(|v| v.planet.is_some()).count()
         + pa.jackknife
             .fits

@@ -466,7 +466,7 @@ fn run_with_sampling_writes_draws() {
         "Parquet magic number (Apache Parquet format spec)"
     );
     let svg = std::fs::read_to_string(out_dir.join("corner.svg")).unwrap();
-    assert!(svg.starts_with("<svg") && svg.contains("b.k_mps"));
+    assert!(svg.starts_with("<svg") && svg.contains("K (b) [m/s]"));
 }
 
 #[test]

@@ -24,6 +24,9 @@ pub struct JackknifeFit {
     pub kind: &'static str,
     /// What was dropped, e.g. `Quill`, `season 2`, `quill.csv:17`.
     pub dropped: String,
+    /// The same in words: `without instrument Quill`, `without season 2`,
+    /// `without epoch quill.csv:17`.
+    pub description: String,
     /// Points left.
     pub n_points: usize,
     /// The planet in the refit.
@@ -34,17 +37,6 @@ pub struct JackknifeFit {
     pub k_shift_sigma: Option<f64>,
     /// Flagged as changing K beyond the setting (subsets) or unduly (epochs).
     pub flagged: bool,
-}
-
-impl JackknifeFit {
-    /// What was left out, in words: `without instrument Quill`, `without season 2`,
-    /// `without epoch quill.csv:17`.
-    pub fn description(&self) -> String {
-        match self.kind {
-            "season" => format!("without {}", self.dropped),
-            kind => format!("without {kind} {}", self.dropped),
-        }
-    }
 }
 
 /// The jackknife of one planet.
@@ -141,9 +133,14 @@ pub fn jackknife(refit: &Refitter, seasons: &[Season]) -> Vec<Jackknife> {
                 } else {
                     refit.settings.jackknife_sigma
                 };
+                let description = match *kind {
+                    "season" => format!("without {dropped}"),
+                    kind => format!("without {kind} {dropped}"),
+                };
                 table.push(JackknifeFit {
                     kind,
                     dropped: dropped.clone(),
+                    description,
                     n_points: sub.len(),
                     flagged: k_shift_sigma.is_some_and(|z| z.abs() > limit),
                     planet,

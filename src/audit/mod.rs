@@ -12,7 +12,6 @@ mod aliases;
 mod common;
 mod jackknife;
 mod limits;
-mod plot;
 mod variants;
 mod verdict;
 
@@ -20,7 +19,6 @@ pub use activity::{Activity, Correlation, IndicatorPeak, Season, SeasonFit};
 pub use aliases::{AliasCandidate, AliasTest, SimulationMatch};
 pub use jackknife::{Jackknife, JackknifeFit};
 pub use limits::{Detection, DetectionPoint, Limits};
-pub use plot::svg;
 pub use variants::{CrossValidation, Variant};
 pub use verdict::Verdict;
 

@@ -178,7 +178,7 @@ pub fn judge(pa: &PlanetAudit, settings: &AuditSettings) -> (Verdict, Vec<String
             Verdict::ModelDependent,
             match j.kind {
                 "epoch" => format!("the single epoch {} moves K by {z:+.1} σ", j.dropped),
-                _ => format!("{}, K changes by {z:+.1} σ", j.description()),
+                _ => format!("{}, K changes by {z:+.1} σ", j.description),
             },
         ));
     }

@@ -15,6 +15,7 @@ mod input;
 mod mass;
 mod periodogram;
 mod plan;
+mod render;
 mod run;
 
 /// heft: weighs exoplanets from the reflex motion of their star.
@@ -99,6 +100,8 @@ enum Command {
     AddEpochs(add_epochs::AddEpochsArgs),
     /// Forecast the K and mass errors after more epochs; the best dates for one more.
     Plan(plan::PlanArgs),
+    /// Rebuild a run folder's report (figures, tables, report.html) from its saved results.
+    Render(render::RenderArgs),
     /// What changed between the latest two runs of a target.
     Changes(changes::ChangesArgs),
     /// Run every target file under a folder (sharded for job arrays), or gather shards.
@@ -197,6 +200,7 @@ pub fn main() -> ExitCode {
         Command::Run(args) => run::run(&args),
         Command::AddEpochs(args) => add_epochs::run(&args),
         Command::Plan(args) => plan::run(&args),
+        Command::Render(args) => render::run(&args),
         Command::Changes(args) => changes::run(&args),
         Command::Batch(args) => batch::run(&args),
     };

@@ -110,7 +110,9 @@ pub fn run(args: &PeriodogramArgs) -> Result<ExitCode, Failure> {
     if let Some(path) = &args.plot {
         let names: Vec<String> = set.files.iter().map(|f| f.display().to_string()).collect();
         let title = format!("GLS periodogram of {}", names.join(", "));
-        write_file(path, &periodogram::svg(&ov, &title))?;
+        let svg = heft::report::overview_svg(&ov, &title)
+            .ok_or_else(|| Failure::Input(anyhow::anyhow!("no periods to plot on this grid")))?;
+        write_file(path, &svg)?;
     }
     let text = if args.json {
         let mut doc = json!({

@@ -29,6 +29,21 @@ pub fn baluev_fap(z: f64, n_points: usize, n_offsets: usize, fmax: f64, t_eff_d:
     (-(-tau).exp_m1() + fap_single * (-tau).exp()).clamp(0.0, 1.0)
 }
 
+/// The power at which the Baluev FAP of `pg` equals `level` (bisection; FAP falls with
+/// power).
+pub fn power_at_fap(pg: &super::Periodogram, level: f64) -> f64 {
+    let (mut lo, mut hi) = (0.0, 1.0);
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if pg.fap(mid) > level {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

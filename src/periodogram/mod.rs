@@ -10,15 +10,13 @@ mod fap;
 mod fast;
 mod gls;
 mod overview;
-mod plot;
 mod window;
 
 pub use bootstrap::{Bootstrap, bootstrap};
-pub use fap::baluev_fap;
+pub use fap::{baluev_fap, power_at_fap};
 pub use fast::{DEFAULT_TOLERANCE, MIN_TOLERANCE};
 pub use gls::{Sinusoid, sinusoid_at};
 pub use overview::{Candidate, Overview, OverviewSettings, Panel, overview, table_csv};
-pub use plot::svg;
 pub use window::{Alias, WindowPeak, aliases, spectral_window, window_peaks};
 
 use rayon::prelude::*;

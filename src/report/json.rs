@@ -34,6 +34,48 @@ fn posterior_block(p: &Posterior) -> Value {
     })
 }
 
+/// The `model` block of results.json: the maximum-likelihood parameters the report's
+/// curves are drawn with (planets with `period_d`, `k_mps`, `ecc`, `omega_deg`,
+/// `tc_bjd`; instruments with `offset_mps`, `jitter_mps`; trend coefficients in
+/// m/s/yr^k).
+fn model_block(a: &Analysis) -> Value {
+    let fit = &a.search.fit;
+    let planets: Vec<Value> = fit
+        .planets
+        .iter()
+        .zip(&fit.params.planets)
+        .map(|(p, o)| {
+            json!({
+                "label": p.label,
+                "period_d": o.period_d(),
+                "k_mps": o.k_mps(),
+                "ecc": o.ecc(),
+                "omega_deg": o.omega_rad().to_degrees().rem_euclid(360.0),
+                "tc_bjd": o.tc_d() + a.set.epoch_bjd,
+            })
+        })
+        .collect();
+    let instruments: Vec<Value> = a
+        .set
+        .instruments
+        .iter()
+        .enumerate()
+        .map(|(k, name)| {
+            json!({
+                "name": name,
+                "offset_mps": fit.params.offsets_mps[k],
+                "jitter_mps": fit.params.jitters_mps[k],
+            })
+        })
+        .collect();
+    json!({
+        "parameters": "maximum likelihood",
+        "planets": planets,
+        "instruments": instruments,
+        "trend_coefficients": fit.params.trend,
+    })
+}
+
 /// The whole results document. With posterior draws, planets, instruments and trend come
 /// from the draws, and `posterior` and `diagnostics` are added.
 pub fn results_json(a: &Analysis) -> Value {
@@ -112,6 +154,7 @@ pub fn results_json(a: &Analysis) -> Value {
         "instruments": post.map_or(&fit.instruments, |p| &p.instruments),
         "trend": trend,
         "fit": fit_block(fit),
+        "model": model_block(a),
         "search": search,
         "system": a.system,
         "priors": a.priors,

@@ -4,25 +4,24 @@
 
 use std::fmt::Write;
 
+use super::figure::{COLUMN_PT, INK, LABEL_PT, esc};
 use crate::derive::composition::zeng_rocky_radius_rearth;
 use crate::derive::constants::{G, GM_EARTH, R_EARTH, SOLAR_SYSTEM_PLANETS};
 use crate::derive::density::bulk_density_gcc;
 use crate::derive::relations::chen_kipping_radius;
-use crate::svg::xml_text;
 
 /// Plot ranges: mass (M⊕) and radius (R⊕), both on log axes.
 const MASS_RANGE: (f64, f64) = (0.3, 3000.0);
 const RADIUS_RANGE: (f64, f64) = (0.5, 25.0);
-/// Canvas and plot-area geometry, px (about one journal column at 96 dpi).
-const WIDTH: f64 = 480.0;
-const HEIGHT: f64 = 380.0;
-const LEFT: f64 = 62.0;
-const RIGHT: f64 = 16.0;
-const TOP: f64 = 14.0;
-const BOTTOM: f64 = 48.0;
+/// Canvas and plot-area geometry, pt (one journal column, 3.5 in).
+const WIDTH: f64 = COLUMN_PT;
+const HEIGHT: f64 = 214.0;
+const LEFT: f64 = 34.0;
+const RIGHT: f64 = 8.0;
+const TOP: f64 = 8.0;
+const BOTTOM: f64 = 28.0;
 /// Colours: a palette of our own, distinct in greyscale and for colour-blind readers
 /// (blue–orange contrast, lightness steps, different dash patterns per curve).
-const INK: &str = "#222222";
 const CURVE_ROCK: &str = "#7a4a14";
 const CURVE_EARTHLIKE: &str = "#c07a2c";
 const CURVE_FORECAST: &str = "#5a6f8a";
@@ -73,7 +72,7 @@ fn polyline(
         .collect();
     let _ = writeln!(
         svg,
-        r#"<polyline class="{class}" points="{}" fill="none" stroke="{colour}" stroke-width="1.4" stroke-dasharray="{dash}"/>"#,
+        r#"<polyline class="{class}" points="{}" fill="none" stroke="{colour}" stroke-width="0.9" stroke-dasharray="{dash}"/>"#,
         pts.join(" ")
     );
 }
@@ -124,7 +123,7 @@ fn axes(svg: &mut String) {
     let (x0, x1, y0, y1) = (LEFT, WIDTH - RIGHT, TOP, HEIGHT - BOTTOM);
     let _ = writeln!(
         svg,
-        r#"<rect x="{x0}" y="{y0}" width="{}" height="{}" fill="none" stroke="{INK}"/>"#,
+        r#"<rect x="{x0}" y="{y0}" width="{}" height="{}" fill="none" stroke="{INK}" stroke-width="0.6"/>"#,
         x1 - x0,
         y1 - y0
     );
@@ -135,14 +134,14 @@ fn axes(svg: &mut String) {
                 let x = x_of(v);
                 let _ = writeln!(
                     svg,
-                    r#"<line x1="{x:.1}" y1="{y1}" x2="{x:.1}" y2="{:.1}" stroke="{INK}"/>"#,
-                    y1 - 4.0
+                    r#"<line x1="{x:.1}" y1="{y1}" x2="{x:.1}" y2="{:.1}" stroke="{INK}" stroke-width="0.5"/>"#,
+                    y1 - 3.0
                 );
                 if m == 1.0 {
                     let _ = writeln!(
                         svg,
                         r#"<text x="{x:.1}" y="{:.1}" text-anchor="middle">{v}</text>"#,
-                        y1 + 16.0
+                        y1 + 9.0
                     );
                 }
             }
@@ -150,27 +149,27 @@ fn axes(svg: &mut String) {
                 let y = y_of(v);
                 let _ = writeln!(
                     svg,
-                    r#"<line x1="{x0}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="{INK}"/>"#,
-                    x0 + 4.0
+                    r#"<line x1="{x0}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="{INK}" stroke-width="0.5"/>"#,
+                    x0 + 3.0
                 );
                 let _ = writeln!(
                     svg,
                     r#"<text x="{:.1}" y="{:.1}" text-anchor="end">{v}</text>"#,
-                    x0 - 6.0,
-                    y + 4.0
+                    x0 - 2.5,
+                    y + 2.4
                 );
             }
         }
     }
     let _ = writeln!(
         svg,
-        r#"<text x="{:.1}" y="{:.1}" text-anchor="middle">mass [Earth masses]</text>"#,
+        r#"<text x="{:.1}" y="{:.1}" text-anchor="middle" font-size="{LABEL_PT}">mass [Earth masses]</text>"#,
         0.5 * (x0 + x1),
-        HEIGHT - 12.0
+        HEIGHT - 6.0
     );
     let _ = writeln!(
         svg,
-        r#"<text transform="translate(16,{:.1}) rotate(-90)" text-anchor="middle">radius [Earth radii]</text>"#,
+        r#"<text transform="translate(10,{:.1}) rotate(-90)" text-anchor="middle" font-size="{LABEL_PT}">radius [Earth radii]</text>"#,
         0.5 * (y0 + y1)
     );
 }
@@ -180,7 +179,7 @@ pub fn mass_radius_svg(planets: &[PlanetCloud]) -> String {
     let mut svg = String::new();
     let _ = writeln!(
         svg,
-        r#"<svg xmlns="http://www.w3.org/2000/svg" width="{WIDTH}" height="{HEIGHT}" viewBox="0 0 {WIDTH} {HEIGHT}" font-family="sans-serif" font-size="11" fill="{INK}">"#
+        r#"<svg xmlns="http://www.w3.org/2000/svg" width="{WIDTH}pt" height="{HEIGHT}pt" viewBox="0 0 {WIDTH} {HEIGHT}" font-family="DejaVu Sans, Helvetica, Arial, sans-serif" font-size="7" fill="{INK}">"#
     );
     let _ = writeln!(
         svg,
@@ -206,9 +205,9 @@ pub fn mass_radius_svg(planets: &[PlanetCloud]) -> String {
         if inside(m_label, r_label) {
             let _ = writeln!(
                 svg,
-                r#"<text x="{:.1}" y="{:.1}" fill="{ISO_DENSITY}" font-size="8">{rho} g/cm³</text>"#,
+                r#"<text x="{:.1}" y="{:.1}" fill="{ISO_DENSITY}" font-size="5.5">{rho} g/cm³</text>"#,
                 x_of(m_label),
-                y_of(r_label) - 4.0
+                y_of(r_label) - 2.5
             );
         }
     }
@@ -244,16 +243,16 @@ pub fn mass_radius_svg(planets: &[PlanetCloud]) -> String {
         let (x, y) = (x_of(m), y_of(r));
         // Uranus and Neptune sit close together: label the lighter one on the left.
         let (tx, anchor) = if name == "Uranus" {
-            (x - 6.0, "end")
+            (x - 4.0, "end")
         } else {
-            (x + 5.0, "start")
+            (x + 3.5, "start")
         };
         let _ = writeln!(
             svg,
-            r#"<rect class="solar-system" x="{:.1}" y="{:.1}" width="6" height="6" fill="none" stroke="{INK}"/><text x="{tx:.1}" y="{:.1}" font-size="9" text-anchor="{anchor}">{name}</text>"#,
-            x - 3.0,
-            y - 3.0,
-            y + 12.0
+            r#"<rect class="solar-system" x="{:.1}" y="{:.1}" width="4" height="4" fill="none" stroke="{INK}" stroke-width="0.6"/><text x="{tx:.1}" y="{:.1}" font-size="6" text-anchor="{anchor}">{name}</text>"#,
+            x - 2.0,
+            y - 2.0,
+            y + 7.5
         );
     }
     for p in planets {
@@ -264,14 +263,14 @@ pub fn mass_radius_svg(planets: &[PlanetCloud]) -> String {
             if inside(m, r) {
                 let _ = writeln!(
                     svg,
-                    r#"<circle class="draw" cx="{:.1}" cy="{:.1}" r="1.2" fill="{PLANET}" fill-opacity="0.25"/>"#,
+                    r#"<circle class="draw" cx="{:.1}" cy="{:.1}" r="0.7" fill="{PLANET}" fill-opacity="0.3"/>"#,
                     x_of(m),
                     y_of(r)
                 );
             }
         }
         let (mean, cov) = log_moments(&p.mass_mearth[..n], &p.radius_rearth[..n]);
-        for (prob, width) in [(0.3935, 1.8), (0.8647, 1.0)] {
+        for (prob, width) in [(0.3935, 1.1), (0.8647, 0.7)] {
             let _ = writeln!(
                 svg,
                 r#"<polygon class="contour" points="{}" fill="none" stroke="{PLANET}" stroke-width="{width}"/>"#,
@@ -281,13 +280,13 @@ pub fn mass_radius_svg(planets: &[PlanetCloud]) -> String {
         let _ = writeln!(
             svg,
             r#"<text x="{:.1}" y="{:.1}" fill="{PLANET}" font-weight="bold">{}</text>"#,
-            x_of(mean[0].exp()) + 8.0,
-            y_of(mean[1].exp()) - 8.0,
-            xml_text(p.label)
+            x_of(mean[0].exp()) + 5.0,
+            y_of(mean[1].exp()) - 5.0,
+            esc(p.label)
         );
     }
     // Legend.
-    let lx = LEFT + 10.0;
+    let lx = LEFT + 5.0;
     for (i, (colour, dash, text)) in [
         (CURVE_ROCK, "", "rock (Zeng et al. 2016)"),
         (CURVE_EARTHLIKE, "6 3", "Earth-like (Zeng et al. 2016)"),
@@ -296,14 +295,14 @@ pub fn mass_radius_svg(planets: &[PlanetCloud]) -> String {
     .iter()
     .enumerate()
     {
-        let y = TOP + 14.0 + 13.0 * i as f64;
+        let y = TOP + 8.0 + 8.0 * i as f64;
         let _ = writeln!(
             svg,
-            r#"<line x1="{lx}" y1="{y}" x2="{}" y2="{y}" stroke="{colour}" stroke-width="1.4" stroke-dasharray="{dash}"/><text x="{}" y="{}" font-size="9">{}</text>"#,
-            lx + 20.0,
-            lx + 24.0,
-            y + 3.0,
-            xml_text(text)
+            r#"<line x1="{lx}" y1="{y}" x2="{}" y2="{y}" stroke="{colour}" stroke-width="0.9" stroke-dasharray="{dash}"/><text x="{}" y="{}" font-size="6">{}</text>"#,
+            lx + 14.0,
+            lx + 17.0,
+            y + 2.0,
+            esc(text)
         );
     }
     svg.push_str("</svg>\n");

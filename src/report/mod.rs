@@ -1,18 +1,35 @@
 //! Outputs of an analysis: `results.json` (schema `heft-results/1`), the printed summary,
-//! the posterior draws and their corner plot, and the run folder they are written into.
+//! the draws, the data as used, and the report (figures, results tables, `report.html`)
+//! rebuilt from those saved files by [`render`].
 
+mod audit_plot;
+mod corner;
 mod density;
 mod draws;
+pub(crate) mod figure;
 mod files;
+mod html;
 mod json;
 mod mass_radius;
+mod pgram;
+mod phase;
+mod render;
+mod saved;
+mod table;
 mod text;
 
+pub use audit_plot::audit_svg;
+pub use corner::corner_svg;
 pub use density::density_markdown;
-pub use draws::{corner_svg, draw_columns, write_draws};
+pub use draws::{draw_columns, write_draws};
 pub use files::{create_run_dir, write_atomic};
 pub use json::{SCHEMA, audit_json, results_json};
 pub use mass_radius::{PlanetCloud, mass_radius_svg};
+pub use pgram::{overview_svg, periodogram_meta, periodogram_svg};
+pub use phase::{ModelPlanet, phase_svg, residuals_time_svg};
+pub use render::{RenderError, figures, render, report_files};
+pub use saved::{POINTS_FILE, Point, Points, SavedError, SavedRun, points_csv, read_run};
+pub use table::{ResultsTable, Rounded, decimals_for, round_to_uncertainty};
 pub use text::{audit_text, format_summary, summary_text};
 
 use std::path::{Path, PathBuf};
@@ -20,13 +37,13 @@ use std::path::{Path, PathBuf};
 use crate::pipeline::Analysis;
 
 /// Writes `manifest.json` (inputs' checksums, settings, version, seed), `results.json`,
-/// `summary.txt` and, where planets have radii, `density.md` and `mass_radius.svg` of
-/// `analysis` into a new run folder (see [`create_run_dir`]) and returns the folder; a
-/// run under `runs/` also becomes `LATEST`. With a periodogram report also
-/// `periodogram.svg`, `periodogram.json` (peaks, FAPs, aliases, window peaks) and
-/// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid);
-/// with posterior draws also `draws.parquet` (and `draws.csv` when `draws_csv`) and
-/// `corner.svg`; with an audit also `audit.svg` (mass under each model variant).
+/// `summary.txt`, `data_used.csv` (the points as used, with model and residuals) and,
+/// where planets have radii, `density.md` of `analysis` into a new run folder (see
+/// [`create_run_dir`]), then the report from those files ([`render`]), and returns the
+/// folder; a run under `runs/` also becomes `LATEST`. With a periodogram report also
+/// `periodogram.json` (peaks, FAPs, aliases, window peaks, false-alarm levels) and
+/// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid); with
+/// draws also `draws.parquet` (and `draws.csv` when `draws_csv`).
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
@@ -41,50 +58,21 @@ pub fn write_run(
     let manifest = serde_json::to_vec_pretty(manifest).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("manifest.json"), &manifest)?;
     write_draws(analysis, &dir, draws_csv)?;
-    if let Some(svg) = corner_svg(analysis) {
-        write_atomic(&dir.join("corner.svg"), svg.as_bytes())?;
-    }
+    write_atomic(&dir.join(POINTS_FILE), points_csv(analysis).as_bytes())?;
     let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;
     if let Some(md) = density_markdown(analysis) {
         write_atomic(&dir.join("density.md"), md.as_bytes())?;
     }
-    let clouds: Vec<PlanetCloud> = analysis
-        .search
-        .fit
-        .planets
-        .iter()
-        .zip(&analysis.derived)
-        .filter_map(|(p, d)| {
-            let d = d.as_ref()?;
-            Some(PlanetCloud {
-                label: &p.label,
-                mass_mearth: d.draws.mass_mearth.as_deref()?,
-                radius_rearth: d.draws.radius_rearth.as_deref()?,
-            })
-        })
-        .collect();
-    if !clouds.is_empty() {
-        write_atomic(
-            &dir.join("mass_radius.svg"),
-            mass_radius_svg(&clouds).as_bytes(),
-        )?;
-    }
     if let Some(ov) = &analysis.periodograms {
-        let title = format!("{}: GLS periodogram", analysis.name);
-        write_atomic(
-            &dir.join("periodogram.svg"),
-            crate::periodogram::svg(ov, &title).as_bytes(),
-        )?;
         write_atomic(&dir.join("periodograms.csv"), ov.table().as_bytes())?;
-        let peaks = serde_json::to_vec_pretty(&ov.to_json()).map_err(std::io::Error::other)?;
+        let peaks =
+            serde_json::to_vec_pretty(&periodogram_meta(ov)).map_err(std::io::Error::other)?;
         write_atomic(&dir.join("periodogram.json"), &peaks)?;
     }
-    if let Some(audit) = &analysis.audit {
-        write_atomic(&dir.join("audit.svg"), crate::audit::svg(audit).as_bytes())?;
-    }
-    // results.json last: its presence marks a complete run.
+    // results.json marks a complete run; the report is drawn from the saved files.
     write_atomic(&dir.join("results.json"), &json)?;
+    render(&dir).map_err(std::io::Error::other)?;
     if out.is_none() {
         crate::runs::mark_latest(&dir)?;
     }

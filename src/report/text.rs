@@ -2,37 +2,21 @@
 
 use std::fmt::Write;
 
+use super::table::{round_to_uncertainty, significant};
 use crate::audit::Audit;
 use crate::derive::PlanetDerived;
 use crate::derive::profile::DensityProfile;
 use crate::pipeline::Analysis;
 use crate::summary::Summary;
 
-/// `value ± err` (or `value +plus/−minus` when asymmetric), rounded so that the larger
-/// error keeps two significant digits (common practice); exact values print plainly.
+/// `value ± err` (or `value +plus/-minus` when asymmetric), rounded to the uncertainty
+/// (see [`round_to_uncertainty`]); exact values print with 7 significant digits.
 pub fn format_summary(s: &Summary) -> String {
-    let err = s.minus.max(s.plus);
-    if !(err > 0.0) || !err.is_finite() {
-        return format!("{}", round_sig(s.value, 7));
+    match round_to_uncertainty(s) {
+        None => significant(s.value, 7),
+        Some(r) if r.symmetric() => format!("{} ± {}", r.value, r.minus),
+        Some(r) => format!("{} +{}/-{}", r.value, r.plus, r.minus),
     }
-    let decimals = (1 - err.log10().floor() as i32).max(0) as usize;
-    if (s.minus - s.plus).abs() <= 0.05 * err {
-        format!("{:.*} ± {:.*}", decimals, s.value, decimals, err)
-    } else {
-        format!(
-            "{:.*} +{:.*}/-{:.*}",
-            decimals, s.value, decimals, s.plus, decimals, s.minus
-        )
-    }
-}
-
-/// `x` with `digits` significant digits.
-fn round_sig(x: f64, digits: i32) -> f64 {
-    if x == 0.0 || !x.is_finite() {
-        return x;
-    }
-    let scale = 10f64.powi(digits - 1 - x.abs().log10().floor() as i32);
-    (x * scale).round() / scale
 }
 
 /// One line of a planet's derived quantities: masses, radius, density, class.
@@ -356,6 +340,6 @@ mod tests {
             upper95: None,
             upper99: None,
         };
-        assert_eq!(format_summary(&asym), "5.0 +1.2/-0.5");
+        assert_eq!(format_summary(&asym), "5.00 +1.20/-0.50");
     }
 }

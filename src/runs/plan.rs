@@ -17,7 +17,7 @@ use serde::Serialize;
 
 use crate::data::RvSet;
 use crate::fit::{Fit, Role};
-use crate::svg::xml_text;
+use crate::report::figure::esc;
 
 /// What to forecast.
 #[derive(Clone, Debug, PartialEq)]
@@ -320,7 +320,7 @@ pub fn plan_svg(plan: &Plan) -> String {
             r#"<text x="{:.1}" y="{:.1}" fill="{colour}">{}</text>"#,
             W - R - 60.0,
             T + 12.0 + 13.0 * p as f64,
-            xml_text(&format!("planet {}", forecast.label))
+            esc(&format!("planet {}", forecast.label))
         );
     }
     let _ = writeln!(

@@ -1,11 +1,13 @@
 //! Figure of the audit (SVG): each planet's mass (K where no star was given) under every
-//! model variant and jackknife subset, with 1σ bars and the baseline's 1σ band.
+//! model variant and jackknife subset, with 1σ bars and the baseline's 1σ band; drawn
+//! from the `audit` block of results.json.
 
 use std::fmt::Write;
 
-use super::{Audit, PlanetValues};
+use serde_json::Value;
+
+use super::figure::esc;
 use crate::summary::Summary;
-use crate::svg::xml_text;
 
 /// Geometry, px (one journal column at 96 dpi wide).
 const WIDTH: f64 = 480.0;
@@ -39,9 +41,19 @@ struct Row {
     style: Style,
 }
 
-/// The quantity plotted for a planet: mass when known, else K.
-fn quantity(p: &PlanetValues) -> Summary {
-    p.mass_mearth.unwrap_or(p.k_mps)
+/// A `{value, minus, plus}` object of the results file.
+fn estimate(v: &Value) -> Option<Summary> {
+    let value = v["value"].as_f64()?;
+    Some(Summary {
+        minus: v["minus"].as_f64().unwrap_or(0.0),
+        plus: v["plus"].as_f64().unwrap_or(0.0),
+        ..Summary::exact(value)
+    })
+}
+
+/// The quantity plotted for a planet's values: mass when known, else K.
+fn quantity(p: &Value) -> Option<Summary> {
+    estimate(&p["mass_mearth"]).or_else(|| estimate(&p["k_mps"]))
 }
 
 /// "Nice" tick step for a span.
@@ -55,19 +67,21 @@ fn tick_step(span: f64) -> f64 {
         .unwrap_or(10.0 * mag)
 }
 
-/// The figure.
-pub fn svg(audit: &Audit) -> String {
+/// The audit figure, drawn from the `audit` block of a results file (so a saved run can be
+/// redrawn without refitting).
+pub fn audit_svg(audit: &Value) -> String {
+    let list = |v: &Value| v.as_array().cloned().unwrap_or_default();
     let mut panels = Vec::new();
-    for pa in &audit.planets {
+    for pa in list(&audit["planets"]) {
         let mut rows: Vec<Row> = Vec::new();
-        for (k, v) in pa.variants.iter().enumerate() {
-            if let Some(p) = &v.planet {
+        for (k, v) in list(&pa["variants"]).iter().enumerate() {
+            if let Some(value) = quantity(&v["planet"]) {
                 rows.push(Row {
-                    label: v.name.clone(),
-                    value: quantity(p),
+                    label: v["name"].as_str().unwrap_or("?").to_string(),
+                    value,
                     style: if k == 0 {
                         Style::Baseline
-                    } else if v.competitive {
+                    } else if v["competitive"].as_bool() == Some(true) {
                         Style::Competitive
                     } else {
                         Style::Other
@@ -75,25 +89,28 @@ pub fn svg(audit: &Audit) -> String {
                 });
             }
         }
-        for j in pa.jackknife.fits.iter().filter(|j| j.kind != "epoch") {
-            if let Some(p) = &j.planet {
+        for j in list(&pa["jackknife"]["fits"]) {
+            if j["kind"] == "epoch" {
+                continue;
+            }
+            if let Some(value) = quantity(&j["planet"]) {
                 rows.push(Row {
-                    label: j.description(),
-                    value: quantity(p),
+                    label: j["description"].as_str().unwrap_or("?").to_string(),
+                    value,
                     style: Style::Other,
                 });
             }
         }
-        let is_mass = pa
-            .variants
+        let is_mass = list(&pa["variants"])
             .first()
-            .and_then(|v| v.planet.as_ref())
-            .is_some_and(|p| p.mass_mearth.is_some());
-        panels.push((pa, rows, is_mass));
+            .is_some_and(|v| v["planet"]["mass_mearth"].is_object());
+        let label = pa["label"].as_str().unwrap_or("?").to_string();
+        let verdict = pa["verdict"].as_str().unwrap_or("?").to_string();
+        panels.push((label, verdict, rows, is_mass));
     }
     let height: f64 = panels
         .iter()
-        .map(|(_, rows, _)| PANEL_TOP + ROW * rows.len() as f64 + AXIS_H)
+        .map(|(_, _, rows, _)| PANEL_TOP + ROW * rows.len() as f64 + AXIS_H)
         .sum::<f64>()
         + 22.0;
     let mut out = String::new();
@@ -103,7 +120,7 @@ pub fn svg(audit: &Audit) -> String {
     );
     let _ = writeln!(out, r#"<rect width="100%" height="100%" fill="white"/>"#);
     let mut top = 0.0;
-    for (pa, rows, is_mass) in &panels {
+    for (label, verdict, rows, is_mass) in &panels {
         let lo = rows
             .iter()
             .map(|r| r.value.value - r.value.minus)
@@ -120,9 +137,9 @@ pub fn svg(audit: &Audit) -> String {
             out,
             r#"<text x="8" y="{:.1}" font-weight="bold" fill="{INK}">planet {} — {}: {}</text>"#,
             top + 16.0,
-            xml_text(&pa.label),
+            esc(label),
             unit,
-            pa.verdict
+            esc(verdict)
         );
         let body_top = top + PANEL_TOP;
         let body_h = ROW * rows.len() as f64;
@@ -154,7 +171,7 @@ pub fn svg(audit: &Audit) -> String {
                 r#"<text x="{:.1}" y="{:.1}" text-anchor="end" fill="{INK}">{}</text>"#,
                 LABEL_W - 6.0,
                 y + 4.0,
-                xml_text(&r.label)
+                esc(&r.label)
             );
             let _ = writeln!(
                 out,
