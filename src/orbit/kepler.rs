@@ -12,7 +12,7 @@ const DIVISIONS: usize = 2 * INTERVALS;
 const PI_LO: f64 = 1.224_646_799_147_353_2e-16;
 /// The low-order part of π/2.
 const FRAC_PI_2_LO: f64 = 6.123_233_995_736_766e-17;
-/// Corrections per solve before the bisection fallback (never reached in tests).
+/// Corrections per solve before the bisection fallback.
 const MAX_CORRECTIONS: usize = 40;
 /// A correction `d` ends the solve when `e³ d⁴ ≤ FINAL_STEP_TOL (1 − e cos E)³`: the
 /// error left after a quartically convergent step is about `(e/(1 − e cos E))³ d⁴`,
@@ -172,8 +172,10 @@ pub struct Anomaly {
 /// in the last place of `E`.
 ///
 /// # Method
-/// After Brandt et al. (2021, AJ 162, 186, "orbit fitting" section on Kepler's equation):
-/// the mean anomaly is reduced to `m` in [0, π] (the equation is odd and 2π-periodic in
+/// The approach of Brandt et al. (2021, AJ 162, 186): a piecewise polynomial starter
+/// tabulated per eccentricity, one high-order correction, and sin E, cos E without
+/// library calls; the details below (grid, Hermite quintic, correction) are this
+/// implementation's. The mean anomaly is reduced to `m` in [0, π] (the equation is odd and 2π-periodic in
 /// `M`). [`KeplerSolver::new`] tabulates, at 17 eccentric anomalies `E_j = jπ/16`, the
 /// mean anomalies `M_j = E_j − e sin E_j` and the derivatives `dE/dM = 1/(1 − e cos E)`,
 /// `d²E/dM² = −e sin E/(1 − e cos E)³`, and fits in each interval `[M_j, M_{j+1}]` the
@@ -181,8 +183,8 @@ pub struct Anomaly {
 /// both ends. A solve finds the interval by binary search, starts from the quintic, and
 /// corrects it by the quartically convergent Householder step (one division)
 /// `d = −f (6f′² − 3f f″)/(6f′³ − 6f f′ f″ + f² f‴)` on `f = E − e sin E − m`. One
-/// correction suffices except for about 0.1 % of cases with e ≳ 0.9 near periastron,
-/// which take more; every step is kept inside a shrinking bracket of the root (bisecting
+/// correction suffices except for a small fraction of cases with e ≳ 0.9 near
+/// periastron, which take more; every step is kept inside a shrinking bracket of the root (bisecting
 /// when a step would leave it), with a bisection fallback.
 ///
 /// sin E and cos E never call library trigonometry: they come from a compile-time table
