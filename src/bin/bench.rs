@@ -3,14 +3,19 @@
 //! converged posterior on the demo target, the demo's audit (time per part), and batch
 //! throughput (targets per minute).
 //!
-//! Run with `cargo run --bin bench [-- DEMO.toml]` (default `data-demo/ostrel-12.toml`).
+//! Run with `cargo run --release --bin bench [-- DEMO.toml]` (default
+//! `data-demo/ostrel-12.toml`).
+//!
+//! On Linux the figures are also given per second on a CPU (this thread's or the
+//! process's CPU time from `/proc`), which other work on the machine inflates far less
+//! than wall time; the load average is printed with them.
 
 use std::hint::black_box;
 use std::time::Instant;
 
 use heft::data::RvSet;
 use heft::model::Params;
-use heft::orbit::{Orbit, eccentric_anomaly};
+use heft::orbit::{KeplerSolver, Orbit};
 
 /// Plain Newton iteration for Kepler's equation started at E = M, to 1e-12 rad: the
 /// baseline the solver is compared with.
@@ -26,25 +31,114 @@ fn newton_from_m(m: f64, e: f64) -> f64 {
     x
 }
 
-/// Solves per second of `solve` over a grid of M ∈ [0, 2π) and e ∈ [0, 0.95].
-fn solves_per_second(solve: &dyn Fn(f64, f64) -> f64) -> f64 {
+/// This thread's time on a CPU, seconds (Linux `/proc/thread-self/schedstat`, ns).
+fn thread_cpu_seconds() -> Option<f64> {
+    let text = std::fs::read_to_string("/proc/thread-self/schedstat").ok()?;
+    let ns: f64 = text.split_whitespace().next()?.parse().ok()?;
+    Some(ns * 1e-9)
+}
+
+/// This process's user + system CPU time, seconds (Linux `/proc/self/stat`, in clock
+/// ticks of 1/100 s, the Linux user-space ABI value).
+fn process_cpu_seconds() -> Option<f64> {
+    let text = std::fs::read_to_string("/proc/self/stat").ok()?;
+    // Fields after the command name (which is in parentheses); utime and stime are the
+    // 14th and 15th fields of the line, i.e. the 12th and 13th after it.
+    let rest = &text[text.rfind(')')? + 1..];
+    let f: Vec<&str> = rest.split_whitespace().collect();
+    let ticks: f64 = f.get(11)?.parse::<f64>().ok()? + f.get(12)?.parse::<f64>().ok()?;
+    Some(ticks / 100.0)
+}
+
+/// The 1-minute load average (Linux `/proc/loadavg`), for reading the wall times.
+fn load_average() -> String {
+    std::fs::read_to_string("/proc/loadavg")
+        .ok()
+        .and_then(|t| t.split_whitespace().next().map(str::to_owned))
+        .unwrap_or_else(|| "unknown".into())
+}
+
+/// Wall and (where known) on-CPU seconds of `work`.
+fn timed(work: impl FnOnce()) -> (f64, Option<f64>) {
+    let cpu = thread_cpu_seconds();
+    let start = Instant::now();
+    work();
+    let wall = start.elapsed().as_secs_f64();
+    let cpu = cpu.zip(thread_cpu_seconds()).map(|(a, b)| b - a);
+    (wall, cpu)
+}
+
+/// Rates per wall second and per CPU second.
+struct Rate {
+    wall: f64,
+    cpu: Option<f64>,
+}
+
+impl Rate {
+    /// `what` per unit as "x ns (y ns on a CPU)" with `scale` = 1e9 for ns, 1e6 for µs.
+    fn per_item(&self, scale: f64, unit: &str) -> String {
+        match self.cpu {
+            Some(c) => format!(
+                "{:.2} {unit} wall, {:.2} {unit} on a CPU",
+                scale / self.wall,
+                scale / c
+            ),
+            None => format!("{:.2} {unit} wall", scale / self.wall),
+        }
+    }
+}
+
+/// Solves Kepler's equation for every mean anomaly of a slice at one eccentricity and
+/// returns a sum of the results.
+type SolveAll = dyn Fn(&[f64], f64) -> f64;
+
+/// Solves per second of each of `solvers` over a grid of M ∈ [0, 2π) and e ∈ [0, 0.95]:
+/// `solve_all(ms, e)` solves for every M at one e (any per-eccentricity setup included
+/// in the time) and returns a sum of the results, so that no solve can be optimised
+/// away. The solvers take turns in short rounds, so that a change of machine load
+/// affects all alike and their ratios stay meaningful.
+fn solves_per_second(solvers: &[&SolveAll]) -> Vec<Rate> {
     let ms: Vec<f64> = (0..1000)
         .map(|i| i as f64 * std::f64::consts::TAU / 1000.0)
         .collect();
     let es: Vec<f64> = (0..=95).map(|i| i as f64 / 100.0).collect();
-    let start = Instant::now();
+    let mut wall = vec![0.0; solvers.len()];
+    let mut cpu = vec![Some(0.0); solvers.len()];
     let mut sum = 0.0;
-    let mut n = 0usize;
-    while start.elapsed().as_secs_f64() < 1.0 {
-        for &e in &es {
-            for &m in &ms {
-                sum += solve(black_box(m), black_box(e));
-            }
+    let rounds = 40;
+    for _ in 0..rounds {
+        for (i, solve_all) in solvers.iter().enumerate() {
+            let (w, c) = timed(|| {
+                for &e in &es {
+                    sum += solve_all(black_box(&ms), black_box(e));
+                }
+            });
+            wall[i] += w;
+            cpu[i] = cpu[i].zip(c).map(|(a, b)| a + b);
         }
-        n += ms.len() * es.len();
     }
     black_box(sum);
-    n as f64 / start.elapsed().as_secs_f64()
+    let n = (rounds * ms.len() * es.len()) as f64;
+    wall.iter()
+        .zip(&cpu)
+        .map(|(w, c)| Rate {
+            wall: n / w,
+            cpu: c.map(|c| n / c),
+        })
+        .collect()
+}
+
+/// heft's solver: the table for e, then E, sin E and cos E
+/// for every M (all three summed, so the solver is charged for the sine and cosine the
+/// baseline does not return).
+fn heft_solves(ms: &[f64], e: f64) -> f64 {
+    let solver = KeplerSolver::new(e);
+    ms.iter()
+        .map(|&m| {
+            let a = solver.solve(m);
+            a.ecc_anom + a.sin + a.cos
+        })
+        .sum()
 }
 
 /// An invented data set of `n` epochs over 1000 d, one instrument.
@@ -64,7 +158,7 @@ fn data(n: usize) -> RvSet {
     )
 }
 
-fn likelihood_per_second(planets: usize, n: usize) -> f64 {
+fn likelihood_per_second(planets: usize, n: usize) -> Rate {
     let set = data(n);
     let orbits = [
         Orbit::new(11.8, 5.0, 0.2, 1.0, 3.0).expect("valid orbit"),
@@ -77,17 +171,22 @@ fn likelihood_per_second(planets: usize, n: usize) -> f64 {
         trend: vec![0.1],
         regressors: vec![],
     };
-    let start = Instant::now();
     let mut evals = 0usize;
     let mut sum = 0.0;
-    while start.elapsed().as_secs_f64() < 1.0 {
-        for _ in 0..100 {
-            sum += black_box(&params).log_likelihood(black_box(&set));
+    let (wall, cpu) = timed(|| {
+        let start = Instant::now();
+        while start.elapsed().as_secs_f64() < 1.0 {
+            for _ in 0..100 {
+                sum += black_box(&params).log_likelihood(black_box(&set));
+            }
+            evals += 100;
         }
-        evals += 100;
-    }
+    });
     black_box(sum);
-    evals as f64 / start.elapsed().as_secs_f64()
+    Rate {
+        wall: evals as f64 / wall,
+        cpu: cpu.map(|c| evals as f64 / c),
+    }
 }
 
 /// Wall time of the demo's audit (maximum-likelihood fit, then the audit), per part.
@@ -175,24 +274,35 @@ fn main() {
         "optimised build"
     };
     println!("heft benchmarks ({profile})");
-    println!("rayon threads: {}", rayon::current_num_threads());
-    let fast = solves_per_second(&eccentric_anomaly);
-    let plain = solves_per_second(&newton_from_m);
     println!(
-        "Kepler solves, e in [0, 0.95]: heft {:.1} M/s ({:.1} ns a solve); plain Newton from E = M {:.1} M/s ({:.1} ns); ratio {:.2}",
-        fast / 1e6,
-        1e9 / fast,
-        plain / 1e6,
-        1e9 / plain,
-        fast / plain
+        "rayon threads: {}; load average at start {}",
+        rayon::current_num_threads(),
+        load_average()
+    );
+    let newton = |ms: &[f64], e: f64| ms.iter().map(|&m| newton_from_m(m, e)).sum();
+    let rates = solves_per_second(&[&heft_solves, &newton]);
+    let plain = &rates[1];
+    println!(
+        "Kepler solves, e in [0, 0.95] (E, sin E and cos E for heft; E for the baseline): plain Newton from E = M {} a solve",
+        plain.per_item(1e9, "ns")
+    );
+    let heft = &rates[0];
+    let cpu_ratio = heft
+        .cpu
+        .zip(plain.cpu)
+        .map_or(String::new(), |(a, b)| format!(", {:.2} × on a CPU", a / b));
+    println!(
+        "  heft: {} a solve; {:.2} × the baseline's rate (wall){cpu_ratio}",
+        heft.per_item(1e9, "ns"),
+        heft.wall / plain.wall
     );
     for planets in [1, 2] {
         for n in [150, 1500] {
             let rate = likelihood_per_second(planets, n);
             println!(
-                "log-likelihood, {planets} planet(s), {n} epochs: {:.0} evaluations/s ({:.2} µs each)",
-                rate,
-                1e6 / rate
+                "log-likelihood, {planets} planet(s), {n} epochs: {:.0} evaluations/s wall, {} each",
+                rate.wall,
+                rate.per_item(1e6, "µs")
             );
         }
     }
@@ -202,14 +312,28 @@ fn main() {
             target.settings.sample = true;
             target.settings.audit = false;
             let start = Instant::now();
-            match heft::pipeline::run_target(&target, &mut |_| {}) {
+            let cpu_start = process_cpu_seconds();
+            // The sampler reports progress from its first to its last step.
+            let mut sampling: Option<(Instant, Instant)> = None;
+            let mut note = |_: &heft::sample::Progress| {
+                let now = Instant::now();
+                sampling = Some((sampling.map_or(now, |s| s.0), now));
+            };
+            match heft::pipeline::run_target(&target, &mut note) {
                 Ok(a) => {
                     let secs = start.elapsed().as_secs_f64();
+                    let cpu = cpu_start
+                        .zip(process_cpu_seconds())
+                        .map_or(String::new(), |(a, b)| {
+                            format!(" ({:.1} CPU s in all threads)", b - a)
+                        });
+                    let sampler_secs = sampling.map_or(0.0, |(a, b)| (b - a).as_secs_f64());
                     match &a.posterior {
                         Some(p) => {
                             let d = &p.chains.diagnostics;
                             println!(
-                                "demo {demo}: whole pipeline {secs:.1} s; sampler {} steps × {} walkers × {} ensembles, converged: {}, chain {:.0} τ, max R̂ {:.4}, min ESS {:.0}",
+                                "demo {demo}: whole pipeline {secs:.1} s wall{cpu}, of which sampling {sampler_secs:.1} s; load average now {}; sampler {} steps × {} walkers × {} ensembles, converged: {}, chain {:.0} τ, max R̂ {:.4}, min ESS {:.0}",
+                                load_average(),
                                 d.steps,
                                 d.walkers,
                                 d.ensembles,
@@ -218,6 +342,18 @@ fn main() {
                                 d.max_rhat,
                                 d.min_ess
                             );
+                            let mut taus: Vec<(f64, &str)> = d
+                                .parameters
+                                .iter()
+                                .map(|p| (p.tau_steps, p.name.as_str()))
+                                .collect();
+                            taus.sort_by(|a, b| b.0.total_cmp(&a.0));
+                            let slowest: Vec<String> = taus
+                                .iter()
+                                .take(4)
+                                .map(|(t, n)| format!("{n} {t:.0}"))
+                                .collect();
+                            println!("  slowest parameters (τ in steps): {}", slowest.join(", "));
                         }
                         None => println!("demo {demo}: {secs:.1} s without a posterior"),
                     }

@@ -135,8 +135,10 @@ pub fn sampler_progress() -> (indicatif::ProgressBar, impl FnMut(&heft::sample::
     let update = move |p: &heft::sample::Progress| {
         handle.set_length(p.max_steps as u64);
         handle.set_position(p.step as u64);
-        if let (Some(t), Some(r)) = (p.tau_multiple, p.max_rhat) {
-            handle.set_message(format!("chain {t:.0} τ, max R̂ {r:.3}"));
+        match (p.tau_multiple, p.max_rhat) {
+            (Some(t), Some(r)) => handle.set_message(format!("chain {t:.0} τ, max R̂ {r:.3}")),
+            (Some(t), None) => handle.set_message(format!("chain {t:.0} τ")),
+            _ => {}
         }
     };
     (bar, update)

@@ -2,7 +2,7 @@
 
 use std::f64::consts::{FRAC_PI_2, TAU};
 
-use super::kepler::eccentric_anomaly;
+use super::kepler::KeplerSolver;
 
 /// Why orbital elements were refused.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -27,11 +27,13 @@ pub struct Orbit {
     omega_rad: f64,
     tc_d: f64,
     tp_d: f64,
-    // Cached: cos ω, sin ω, sqrt(1 - e²), e cos ω.
-    cos_w: f64,
-    sin_w: f64,
-    sqrt_1me2: f64,
-    e_cos_w: f64,
+    // Cached per-orbit constants of [`Orbit::rv`]: 1/P, K cos ω, K sqrt(1 - e²) sin ω,
+    // K e cos ω, and the Kepler solver's table for e.
+    inv_period: f64,
+    k_cos_w: f64,
+    k_root_sin_w: f64,
+    k_e_cos_w: f64,
+    solver: KeplerSolver,
 }
 
 impl Orbit {
@@ -67,10 +69,11 @@ impl Orbit {
             omega_rad,
             tc_d,
             tp_d: periastron_from_conjunction(period_d, ecc, omega_rad, tc_d),
-            cos_w,
-            sin_w,
-            sqrt_1me2: (1.0 - ecc * ecc).sqrt(),
-            e_cos_w: ecc * cos_w,
+            inv_period: 1.0 / period_d,
+            k_cos_w: k_mps * cos_w,
+            k_root_sin_w: k_mps * (1.0 - ecc * ecc).sqrt() * sin_w,
+            k_e_cos_w: k_mps * ecc * cos_w,
+            solver: KeplerSolver::new(ecc),
         })
     }
 
@@ -103,19 +106,14 @@ impl Orbit {
     /// `K [cos(nu + omega) + e cos omega]`.
     ///
     /// Uses `cos nu = (cos E - e)/(1 - e cos E)` and
-    /// `sin nu = sqrt(1 - e²) sin E/(1 - e cos E)`, so no arctangent is needed.
+    /// `sin nu = sqrt(1 - e²) sin E/(1 - e cos E)` with sin E and cos E from the Kepler
+    /// solver, so no trigonometric function or arctangent is called:
+    /// `v = [K cos ω (cos E − e) − K sqrt(1 − e²) sin ω sin E]/(1 − e cos E) + K e cos ω`.
     #[inline]
     pub fn rv(&self, t_d: f64) -> f64 {
-        let mean_anom = TAU * (t_d - self.tp_d) / self.period_d;
-        if self.ecc == 0.0 {
-            let (s, c) = mean_anom.sin_cos();
-            return self.k_mps * (c * self.cos_w - s * self.sin_w);
-        }
-        let (s, c) = eccentric_anomaly(mean_anom, self.ecc).sin_cos();
-        let inv = 1.0 / (1.0 - self.ecc * c);
-        let cos_nu = (c - self.ecc) * inv;
-        let sin_nu = self.sqrt_1me2 * s * inv;
-        self.k_mps * (cos_nu * self.cos_w - sin_nu * self.sin_w + self.e_cos_w)
+        let a = self.solver.solve(TAU * (t_d - self.tp_d) * self.inv_period);
+        (self.k_cos_w * (a.cos - self.ecc) - self.k_root_sin_w * a.sin) / (1.0 - self.ecc * a.cos)
+            + self.k_e_cos_w
     }
 }
 
@@ -131,7 +129,7 @@ pub fn periastron_from_conjunction(period_d: f64, ecc: f64, omega_rad: f64, tc_d
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::orbit::true_anomaly;
+    use crate::orbit::{eccentric_anomaly, true_anomaly};
 
     /// (Tc − Tp)/P check values of references.md §4 ([C], computed from the stated chain).
     #[test]
@@ -178,6 +176,28 @@ mod tests {
             // Circular: v = -K sin(2 pi (t - Tc)/P) with the conjunction convention.
             let expect = -12.0 * (TAU * t / 5.3).sin();
             assert!((c.rv(t) - expect).abs() < 1e-9);
+        }
+    }
+
+    /// The trig-free curve against `K [cos(ν + ω) + e cos ω]` with ν from the arctangent
+    /// formula (references.md §4) of the bisection root and the library's cos.
+    #[test]
+    fn curve_matches_the_true_anomaly_form() {
+        use crate::orbit::eccentric_anomaly_bisection;
+        for &(e, w) in &[(0.0, 0.7), (0.1, 2.0), (0.5, 4.5), (0.9, 1.2), (0.99, 5.9)] {
+            let o = Orbit::new(3.7, 9.0, e, w, 0.4).unwrap();
+            for k in 0..400 {
+                let t = -20.0 + 0.113 * k as f64;
+                // The mean anomaly exactly as `rv` forms it.
+                let m = TAU * (t - o.tp_d()) * (1.0 / o.period_d());
+                let nu = true_anomaly(eccentric_anomaly_bisection(m, e), e);
+                let expect = 9.0 * ((nu + w).cos() + e * w.cos());
+                assert!(
+                    (o.rv(t) - expect).abs() < 1e-11,
+                    "e={e} w={w} t={t}: {} vs {expect}",
+                    o.rv(t)
+                );
+            }
         }
     }
 

@@ -7,5 +7,7 @@
 mod kepler;
 mod keplerian;
 
-pub use kepler::{eccentric_anomaly, eccentric_anomaly_bisection, true_anomaly};
+pub use kepler::{
+    Anomaly, KeplerSolver, eccentric_anomaly, eccentric_anomaly_bisection, true_anomaly,
+};
 pub use keplerian::{Orbit, OrbitError, periastron_from_conjunction};

@@ -4,7 +4,7 @@
 use serde::Serialize;
 
 use super::diagnostics::{integrated_time, rank_normalised_rhat};
-use super::ensemble::Ensemble;
+use super::ensemble::{Ensemble, advance};
 
 /// Sokal's window constant for the autocorrelation time.
 const SOKAL_C: f64 = 5.0;
@@ -71,7 +71,8 @@ pub struct Progress {
     pub max_steps: usize,
     /// Kept chain length over the largest τ at the last check.
     pub tau_multiple: Option<f64>,
-    /// Largest R̂ at the last check.
+    /// Largest R̂ at the last check (`None` while the chain is too short in τ for R̂ to
+    /// be computed).
     pub max_rhat: Option<f64>,
 }
 
@@ -192,9 +193,13 @@ where
     let mut step = 0;
     while step < settings.max_steps {
         step += 1;
-        for (ens, seed) in ensembles.iter_mut().zip(&seeds) {
-            accepted += ens.advance(ln_p, settings.stretch_a, *seed, step as u64);
-        }
+        accepted += advance(
+            &mut ensembles,
+            ln_p,
+            settings.stretch_a,
+            &seeds,
+            step as u64,
+        );
         if step % thin == 0 {
             for (h, ens) in history.iter_mut().zip(&ensembles) {
                 h.positions.extend(ens.positions.iter().flatten());
@@ -210,12 +215,22 @@ where
             last.step = step;
             progress(&last);
         }
-        if step >= next_check || step == settings.max_steps {
-            next_check = (step + FIRST_CHECK).max(step + step / 5);
-            let check = assess(&history, &stored_steps, thin, walkers, dim, settings, names);
+        let last_step = step == settings.max_steps;
+        if step >= next_check || last_step {
+            next_check = (step + FIRST_CHECK).max(step + step / 10);
+            let check = assess(
+                &history,
+                &stored_steps,
+                thin,
+                walkers,
+                dim,
+                settings,
+                names,
+                last_step,
+            );
             last.step = step;
             last.tau_multiple = Some(check.tau_multiple);
-            last.max_rhat = Some(check.max_rhat);
+            last.max_rhat = check.max_rhat.is_finite().then_some(check.max_rhat);
             progress(&last);
             let done = check.converged;
             verdict = Some(check);
@@ -303,7 +318,11 @@ fn walker_chains(
         .collect()
 }
 
-/// The diagnostics and convergence verdict for the chains stored so far.
+/// The diagnostics and convergence verdict for the chains stored so far. R̂ (whose
+/// rank normalisation sorts every draw) is computed only once the chain is long enough
+/// in autocorrelation times, or when `final_check`; before that it is NaN, and the run
+/// cannot have converged anyway.
+#[allow(clippy::too_many_arguments)]
 fn assess(
     history: &[History],
     stored: &[usize],
@@ -312,6 +331,7 @@ fn assess(
     dim: usize,
     settings: &SamplerSettings,
     names: &[String],
+    final_check: bool,
 ) -> Diagnostics {
     let n = stored.len();
     let steps = stored.last().copied().unwrap_or(0);
@@ -325,9 +345,22 @@ fn assess(
     let from = stored.partition_point(|&s| s <= burn_steps);
     let burn_in_steps = if from == 0 { 0 } else { stored[from - 1] };
     let kept_steps = steps - burn_in_steps;
-    let parameters: Vec<ParameterDiagnostics> = (0..dim)
+    let draws = ((n - from) * walkers * history.len()) as f64;
+    let mut parameters: Vec<ParameterDiagnostics> = (0..dim)
         .map(|p| {
             let tau = tau_of(from, p);
+            ParameterDiagnostics {
+                name: names.get(p).cloned().unwrap_or_else(|| format!("x{p}")),
+                tau_steps: tau,
+                rhat: f64::NAN,
+                ess: (draws * thin as f64 / tau).min(draws),
+            }
+        })
+        .collect();
+    let tau_max = parameters.iter().map(|d| d.tau_steps).fold(0.0, f64::max);
+    let tau_multiple = kept_steps as f64 / tau_max;
+    if final_check || tau_multiple >= settings.min_tau_multiple {
+        for (p, d) in parameters.iter_mut().enumerate() {
             let per_ensemble: Vec<Vec<f64>> = history
                 .iter()
                 .map(|h| {
@@ -337,18 +370,10 @@ fn assess(
                         .collect()
                 })
                 .collect();
-            let draws = ((n - from) * walkers * history.len()) as f64;
-            ParameterDiagnostics {
-                name: names.get(p).cloned().unwrap_or_else(|| format!("x{p}")),
-                tau_steps: tau,
-                rhat: rank_normalised_rhat(&per_ensemble),
-                ess: (draws * thin as f64 / tau).min(draws),
-            }
-        })
-        .collect();
-    let tau_max = parameters.iter().map(|d| d.tau_steps).fold(0.0, f64::max);
-    let max_rhat = parameters.iter().map(|d| d.rhat).fold(0.0, f64::max);
-    let tau_multiple = kept_steps as f64 / tau_max;
+            d.rhat = rank_normalised_rhat(&per_ensemble);
+        }
+    }
+    let max_rhat = parameters.iter().map(|d| d.rhat).fold(f64::NAN, f64::max);
     let min_ess = parameters
         .iter()
         .map(|d| d.ess)

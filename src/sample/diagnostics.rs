@@ -1,39 +1,65 @@
 //! Convergence diagnostics of MCMC chains: integrated autocorrelation time, split R̂
 //! and effective sample size.
 
-use rustfft::FftPlanner;
+use std::sync::Arc;
+
 use rustfft::num_complex::Complex;
+use rustfft::{Fft, FftPlanner};
 use statrs::function::erf::erf_inv;
 
 /// Normalised autocorrelation function ρ(t), t = 0 … n−1, of one chain, by FFT of the
 /// chain zero-padded to a power of two ≥ 2n (so the correlation is not circular).
 /// A constant chain gives ρ = 1 at t = 0 and 0 elsewhere.
 pub fn autocorrelation(x: &[f64]) -> Vec<f64> {
-    let n = x.len();
-    if n == 0 {
-        return Vec::new();
+    Autocorrelation::new(x.len()).of(x)
+}
+
+/// FFT plans for autocorrelation functions of chains of one length (planning computes
+/// twiddle factors, so it is done once for all the chains of an estimate).
+struct Autocorrelation {
+    size: usize,
+    forward: Arc<dyn Fft<f64>>,
+    inverse: Arc<dyn Fft<f64>>,
+}
+
+impl Autocorrelation {
+    /// Plans for chains of `n` draws.
+    fn new(n: usize) -> Autocorrelation {
+        let size = (2 * n).next_power_of_two();
+        let mut planner = FftPlanner::new();
+        Autocorrelation {
+            size,
+            forward: planner.plan_fft_forward(size),
+            inverse: planner.plan_fft_inverse(size),
+        }
     }
-    let mean = x.iter().sum::<f64>() / n as f64;
-    let size = (2 * n).next_power_of_two();
-    let mut buf: Vec<Complex<f64>> = x
-        .iter()
-        .map(|v| Complex::new(v - mean, 0.0))
-        .chain(std::iter::repeat(Complex::new(0.0, 0.0)))
-        .take(size)
-        .collect();
-    let mut planner = FftPlanner::new();
-    planner.plan_fft_forward(size).process(&mut buf);
-    for c in buf.iter_mut() {
-        *c = Complex::new(c.norm_sqr(), 0.0);
+
+    /// ρ(t) of `x` (see [`autocorrelation`]); `x` has the planned length.
+    fn of(&self, x: &[f64]) -> Vec<f64> {
+        let n = x.len();
+        if n == 0 {
+            return Vec::new();
+        }
+        let mean = x.iter().sum::<f64>() / n as f64;
+        let mut buf: Vec<Complex<f64>> = x
+            .iter()
+            .map(|v| Complex::new(v - mean, 0.0))
+            .chain(std::iter::repeat(Complex::new(0.0, 0.0)))
+            .take(self.size)
+            .collect();
+        self.forward.process(&mut buf);
+        for c in buf.iter_mut() {
+            *c = Complex::new(c.norm_sqr(), 0.0);
+        }
+        self.inverse.process(&mut buf);
+        let c0 = buf[0].re;
+        if !(c0 > 0.0) {
+            let mut rho = vec![0.0; n];
+            rho[0] = 1.0;
+            return rho;
+        }
+        buf[..n].iter().map(|c| c.re / c0).collect()
     }
-    planner.plan_fft_inverse(size).process(&mut buf);
-    let c0 = buf[0].re;
-    if !(c0 > 0.0) {
-        let mut rho = vec![0.0; n];
-        rho[0] = 1.0;
-        return rho;
-    }
-    buf[..n].iter().map(|c| c.re / c0).collect()
 }
 
 /// Integrated autocorrelation time `τ = 1 + 2 Σ_{t≥1} ρ(t)` of a set of chains of equal
@@ -53,8 +79,9 @@ pub fn integrated_time(chains: &[Vec<f64>], c: f64) -> f64 {
         return f64::NAN;
     }
     let mut rho = vec![0.0; n];
+    let plans = Autocorrelation::new(n);
     for chain in chains {
-        for (r, a) in rho.iter_mut().zip(autocorrelation(chain)) {
+        for (r, a) in rho.iter_mut().zip(plans.of(chain)) {
             *r += a;
         }
     }

@@ -69,50 +69,60 @@ impl Ensemble {
     pub fn is_empty(&self) -> bool {
         self.positions.is_empty()
     }
+}
 
-    /// One step: the first half of the walkers moves by stretch moves towards partners in
-    /// the second half, then the second half towards the (updated) first. A proposal
-    /// `Y = X_j + z (X_k − X_j)` is accepted with probability
-    /// `min(1, z^(n−1) p(Y)/p(X_k))`, n = dimension. Returns the number of accepted moves.
-    ///
-    /// `seed` and `step` choose the random streams (walker k at step s uses stream
-    /// `s × walkers + k`).
-    pub fn advance<F>(&mut self, ln_p: &F, a: f64, seed: u64, step: u64) -> usize
-    where
-        F: Fn(&[f64]) -> f64 + Sync,
-    {
-        let n = self.len();
-        let half = n / 2;
-        let dim = self.positions[0].len();
-        let mut accepted = 0;
-        for (moving, partners) in [(0..half, half..n), (half..n, 0..half)] {
-            let positions = &self.positions;
-            let current = &self.ln_p;
-            let moves: Vec<Option<(Vec<f64>, f64)>> = moving
-                .clone()
-                .into_par_iter()
-                .map(|k| {
-                    let mut rng = walker_rng(seed, step * n as u64 + k as u64);
-                    let j = partners.start + rng.random_range(0..partners.len());
-                    let z = stretch_z(rng.random::<f64>(), a);
-                    let (xk, xj) = (&positions[k], &positions[j]);
-                    let y: Vec<f64> = xj.iter().zip(xk).map(|(b, x)| b + z * (x - b)).collect();
-                    let lp = ln_p(&y);
-                    let ln_ratio = (dim as f64 - 1.0) * z.ln() + lp - current[k];
-                    let u: f64 = rng.random();
-                    (lp.is_finite() && u.ln() < ln_ratio).then_some((y, lp))
-                })
-                .collect();
-            for (k, m) in moving.zip(moves) {
-                if let Some((y, lp)) = m {
-                    self.positions[k] = y;
-                    self.ln_p[k] = lp;
-                    accepted += 1;
-                }
+/// One step of every ensemble: in each, the first half of the walkers moves by stretch
+/// moves towards partners in the second half, then the second half towards the (updated)
+/// first. A proposal `Y = X_j + z (X_k − X_j)` is accepted with probability
+/// `min(1, z^(n−1) p(Y)/p(X_k))`, n = dimension. The same half of all ensembles is
+/// proposed in one parallel pass (fewer synchronisations than one pass per ensemble).
+/// Returns the number of accepted moves.
+///
+/// `seeds[e]` and `step` choose ensemble e's random streams (walker k at step s uses
+/// stream `s × walkers + k`), so the result does not depend on how the work is shared.
+///
+/// # Panics
+/// If the ensembles differ in size or `seeds` is shorter than `ensembles` (programming
+/// errors).
+pub fn advance<F>(ensembles: &mut [Ensemble], ln_p: &F, a: f64, seeds: &[u64], step: u64) -> usize
+where
+    F: Fn(&[f64]) -> f64 + Sync,
+{
+    let n = ensembles[0].len();
+    assert!(
+        ensembles.iter().all(|e| e.len() == n) && seeds.len() >= ensembles.len(),
+        "ensembles of one run share their size and each has a seed"
+    );
+    let half = n / 2;
+    let dim = ensembles[0].positions[0].len();
+    let mut accepted = 0;
+    for (first, partners) in [(0, half..n), (half, 0..half)] {
+        let current: &[Ensemble] = ensembles;
+        let moves: Vec<Option<(Vec<f64>, f64)>> = (0..current.len() * half)
+            .into_par_iter()
+            .map(|at| {
+                let (ens, k) = (&current[at / half], first + at % half);
+                let mut rng = walker_rng(seeds[at / half], step * n as u64 + k as u64);
+                let j = partners.start + rng.random_range(0..partners.len());
+                let z = stretch_z(rng.random::<f64>(), a);
+                let (xk, xj) = (&ens.positions[k], &ens.positions[j]);
+                let y: Vec<f64> = xj.iter().zip(xk).map(|(b, x)| b + z * (x - b)).collect();
+                let lp = ln_p(&y);
+                let ln_ratio = (dim as f64 - 1.0) * z.ln() + lp - ens.ln_p[k];
+                let u: f64 = rng.random();
+                (lp.is_finite() && u.ln() < ln_ratio).then_some((y, lp))
+            })
+            .collect();
+        for (at, m) in moves.into_iter().enumerate() {
+            if let Some((y, lp)) = m {
+                let (ens, k) = (&mut ensembles[at / half], first + at % half);
+                ens.positions[k] = y;
+                ens.ln_p[k] = lp;
+                accepted += 1;
             }
         }
-        accepted
     }
+    accepted
 }
 
 #[cfg(test)]
