@@ -210,12 +210,14 @@ pub fn search_settings(s: &Settings) -> SearchSettings {
     }
 }
 
-/// Audit settings from a target file's settings and star.
+/// Audit settings from a target file's settings and star (model variants are sampled too
+/// with `audit_posterior`).
 pub fn audit_settings(s: &Settings, star: Option<&Star>) -> AuditSettings {
     AuditSettings {
         seed: s.seed,
         fap_threshold: s.fap_threshold,
         rotation_d: star.and_then(|st| st.rotation_d.map(|p| (p, st.rotation_err_d))),
+        sampler: s.audit_posterior.then(|| s.sampler()),
         ..AuditSettings::default()
     }
 }

@@ -202,6 +202,9 @@ pub struct Settings {
     pub draws_csv: bool,
     /// Audit every planet (aliases, model variants, activity, jackknife; default true).
     pub audit: bool,
+    /// Also sample the posterior of the baseline and of every model variant in the audit
+    /// (default false: maximum likelihood; each posterior costs as much as the run's own).
+    pub audit_posterior: bool,
 }
 
 impl Default for Settings {
@@ -227,6 +230,7 @@ impl Default for Settings {
             max_steps: 200_000,
             draws_csv: false,
             audit: true,
+            audit_posterior: false,
         }
     }
 }

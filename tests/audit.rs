@@ -254,3 +254,52 @@ fn pure_noise_is_not_detected_and_limits_behave() {
         "{curve:?}"
     );
 }
+
+/// When sampling is requested, every model variant is also sampled: for a clean, strong
+/// signal its posterior median K lies within 1σ of its maximum-likelihood K (a Gaussian
+/// likelihood with flat priors: common practice), and the sampler converges.
+#[test]
+fn variants_are_sampled_when_requested() {
+    let star = Star::from_mass(0.8, 0.03);
+    let mut rng = ChaCha8Rng::seed_from_u64(21);
+    let times = nightly_times(45, 160, 2.5, &mut rng);
+    let set = simulate(&times, 9.1, 8.0, 1.5, &mut rng);
+    let (analysis, _) = audit_claim(set, 9.1, 4, &star);
+    let labels = vec![analysis.search.fit.planets[0].label.clone()];
+    let ctx = Context {
+        star: Some(&star),
+        transits: &[],
+        labels: &labels,
+    };
+    let settings = AuditSettings {
+        seed: 4,
+        simulations: 50,
+        jackknife_epochs: 2,
+        injections: 20,
+        mass_draws: 500,
+        sampler: Some(heft::sample::SamplerSettings {
+            seed: 4,
+            ..Default::default()
+        }),
+        ..AuditSettings::default()
+    };
+    let a = audit::audit(&analysis, &ctx, &settings).unwrap();
+    let mut sampled = 0;
+    for v in &a.planets[0].variants {
+        let (Some(ml), Some(post)) = (&v.planet, &v.posterior) else {
+            continue;
+        };
+        sampled += 1;
+        assert!(post.converged, "{}", v.name);
+        let sigma = ml.k_mps.plus;
+        assert!(
+            (post.k_mps.value - ml.k_mps.value).abs() < sigma,
+            "{}: posterior K {} against {} ± {sigma}",
+            v.name,
+            post.k_mps.value,
+            ml.k_mps.value
+        );
+        assert!(post.mass_mearth.is_some());
+    }
+    assert!(sampled >= 4, "{sampled} variants sampled");
+}

@@ -170,6 +170,28 @@ impl<'a> Refitter<'a> {
         derive_planet(&orbit, star, transit).ok()
     }
 
+    /// Mass and density of base planet `i` from posterior draws of its orbit (the first
+    /// [`Refitter::n_draws`] at most), joined with the shared stellar (and transit) draws.
+    pub fn derive_orbit(&self, orbit: &OrbitDraws, i: usize) -> Option<PlanetDerived> {
+        let star = self.star_draws.as_ref()?;
+        let n = orbit.period_d.len().min(star.mass_msun.len());
+        if n == 0 {
+            return None;
+        }
+        let head = |v: &[f64]| v[..n].to_vec();
+        let star = StarDraws {
+            mass_msun: head(&star.mass_msun),
+            radius_rsun: star.radius_rsun.as_deref().map(head),
+        };
+        let orbit = OrbitDraws {
+            period_d: head(&orbit.period_d),
+            k_mps: head(&orbit.k_mps),
+            ecc: head(&orbit.ecc),
+        };
+        let transit = self.transit_draws[i].as_ref().and_then(|t| t.head(n));
+        derive_planet(&orbit, &star, transit.as_ref()).ok()
+    }
+
     /// The data with everything of the base fit but planet `i` removed (other planets,
     /// trend, indicator terms); instrument offsets stay for the periodogram to refit.
     pub fn residual_without(&self, i: usize) -> RvSet {

@@ -86,6 +86,9 @@ pub struct AuditSettings {
     pub mass_draws: usize,
     /// Stellar rotation period and its 1σ, days, when known.
     pub rotation_d: Option<(f64, f64)>,
+    /// Also sample the posterior of the baseline and of every model variant with these
+    /// settings (requested by sampling the run; default: maximum likelihood only).
+    pub sampler: Option<crate::sample::SamplerSettings>,
 }
 
 impl Default for AuditSettings {
@@ -105,6 +108,7 @@ impl Default for AuditSettings {
             injections: 100,
             mass_draws: 4000,
             rotation_d: None,
+            sampler: None,
         }
     }
 }

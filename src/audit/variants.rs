@@ -27,6 +27,8 @@ use crate::data::RvSet;
 use crate::fit::{Fit, FitOptions, PlanetSpec, fit, next_label};
 use crate::model::point_log_likelihood;
 use crate::periodogram::sinusoid_at;
+use crate::sample::{self, PriorSet};
+use crate::summary::Summary;
 use crate::target::OrbitShape;
 
 /// Period ratio range around 2 that counts as "near 2:1".
@@ -56,6 +58,51 @@ pub struct Variant {
     /// only against the less precise of the two estimates).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub k_shift_sigma: Option<f64>,
+    /// The planet under this variant's posterior, when sampling was requested.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub posterior: Option<PosteriorValues>,
+}
+
+/// A planet's K and mass from the posterior of one variant.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct PosteriorValues {
+    /// Semi-amplitude (median, 15.87/84.13 percentiles), m/s.
+    pub k_mps: Summary,
+    /// Mass (true mass with a known inclination, else m sin i), Earth masses.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub mass_mearth: Option<Summary>,
+    /// Whether the sampler met its convergence rule.
+    pub converged: bool,
+}
+
+/// Samples the posterior of `fit` (default priors over the search range) and summarises
+/// each base planet in it (same order as the base; `None` where the variant has no such
+/// planet); all `None` when sampling fails.
+fn posterior_values(refit: &Refitter, data: &RvSet, fit: &Fit) -> Vec<Option<PosteriorValues>> {
+    let n = refit.base.planets.len();
+    let Some(settings) = &refit.settings.sampler else {
+        return vec![None; n];
+    };
+    let range = (1.0 / refit.grid.fmax(), 1.0 / refit.grid.fmin);
+    let priors = PriorSet::defaults(data, fit, range);
+    let Ok(post) = sample::sample(data, fit, priors, settings, refit.n_draws(), &mut |_| {}) else {
+        return vec![None; n];
+    };
+    let converged = post.chains.diagnostics.converged;
+    (0..n)
+        .map(|i| {
+            let label = &refit.base.planets[i].label;
+            let idx = post.planets.iter().position(|p| &p.label == label)?;
+            let mass = refit
+                .derive_orbit(&post.orbit_draws(idx), i)
+                .map(|d| d.mass_mearth.unwrap_or(d.msini_mearth));
+            Some(PosteriorValues {
+                k_mps: post.planets[idx].k_mps,
+                mass_mearth: mass,
+                converged,
+            })
+        })
+        .collect()
 }
 
 /// Log predictive density of one model in the cross-validation.
@@ -91,6 +138,7 @@ pub struct CrossValidation {
 /// A variant fit before it is seen per planet.
 struct Refit {
     name: String,
+    data: RvSet,
     fit: Fit,
 }
 
@@ -176,25 +224,38 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
     let fits: Vec<Refit> = jobs
         .into_par_iter()
         .filter_map(|(name, data, planets, o)| {
-            fit(&data, &planets, &o).ok().map(|fit| Refit { name, fit })
+            fit(&data, &planets, &o)
+                .ok()
+                .map(|fit| Refit { name, data, fit })
         })
         .collect();
     let more_name = more
         .and_then(|f| f.planets.last())
         .map(|p| format!("one more signal ({:.4} d)", p.period_d.value));
-    let all: Vec<(&str, &Fit)> = std::iter::once(("baseline", base))
-        .chain(fits.iter().map(|r| (r.name.as_str(), &r.fit)))
-        .chain(more_name.as_deref().zip(more))
+    let all: Vec<(&str, &RvSet, &Fit)> = std::iter::once(("baseline", refit.set, base))
+        .chain(fits.iter().map(|r| (r.name.as_str(), &r.data, &r.fit)))
+        .chain(
+            more_name
+                .as_deref()
+                .zip(more)
+                .map(|(name, f)| (name, refit.set, f)),
+        )
+        .collect();
+    // Sampled one after the other: each sampler uses every thread.
+    let posteriors: Vec<Vec<Option<PosteriorValues>>> = all
+        .iter()
+        .map(|(_, data, f)| posterior_values(refit, data, f))
         .collect();
     let best_bic = all
         .iter()
-        .map(|(_, f)| f.bic())
+        .map(|(_, _, f)| f.bic())
         .fold(f64::INFINITY, f64::min);
     (0..base.planets.len())
         .map(|i| {
             let k0 = base.planets[i].k_mps;
             all.iter()
-                .map(|(name, f)| {
+                .zip(&posteriors)
+                .map(|((name, _, f), post)| {
                     let planet = refit.values(f, i);
                     let k_shift_sigma = planet
                         .as_ref()
@@ -209,6 +270,7 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
                         competitive: f.bic() - best_bic <= refit.settings.competitive_delta_bic,
                         planet,
                         k_shift_sigma,
+                        posterior: post[i].clone(),
                     }
                 })
                 .collect()

@@ -40,7 +40,9 @@ pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
         )));
     }
     let star = args.fit.star()?;
-    let mut analysis = analyse(args.fit.request(star.as_ref())?)?;
+    let request = args.fit.request(star.as_ref())?;
+    let sampler = request.sampler;
+    let mut analysis = analyse(request)?;
     let busy = super::spinner("auditing: aliases, model variants, jackknife");
     let labels: Vec<String> = analysis
         .search
@@ -58,6 +60,7 @@ pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
     let settings = AuditSettings {
         seed: args.fit.seed(),
         rotation_d: args.rotation_d.map(|p| (p, args.rotation_err_d.max(0.0))),
+        sampler,
         ..AuditSettings::default()
     };
     let result = audit::audit(&analysis, &ctx, &settings).map_err(|e| Failure::Input(e.into()))?;

@@ -317,6 +317,24 @@ pub struct TransitDraws {
 }
 
 impl TransitDraws {
+    /// The first `n` draws (`None` when there are fewer).
+    pub fn head(&self, n: usize) -> Option<TransitDraws> {
+        let cut = |v: &Vec<f64>| (v.len() >= n).then(|| v[..n].to_vec());
+        let radius = match &self.radius {
+            None => None,
+            Some(RadiusDraws::RatioToStar(v)) => Some(RadiusDraws::RatioToStar(cut(v)?)),
+            Some(RadiusDraws::Rearth(v)) => Some(RadiusDraws::Rearth(cut(v)?)),
+        };
+        let inclination = match &self.inclination {
+            InclinationDraws::Degrees(source, v) => InclinationDraws::Degrees(*source, cut(v)?),
+            InclinationDraws::Assumed90 => InclinationDraws::Assumed90,
+        };
+        Some(TransitDraws {
+            radius,
+            inclination,
+        })
+    }
+
     /// `n` draws from a transit's values ± 1σ (normal, truncated to the physical range):
     /// the radius ratio where given; the inclination from `incl_deg`, else from the impact
     /// parameter b and a/R* via cos i = b / (a/R*) (circular orbit; pairs with b ≥ a/R*

@@ -207,6 +207,8 @@ fn audit(s: &mut String, results: &Value, figs: &[PageFigure]) {
                 let mut row = v.clone();
                 row["k_mps"] = v["planet"]["k_mps"].clone();
                 row["mass_mearth"] = v["planet"]["mass_mearth"].clone();
+                row["k_posterior"] = v["posterior"]["k_mps"].clone();
+                row["mass_posterior"] = v["posterior"]["mass_mearth"].clone();
                 row
             })
             .collect();
@@ -214,13 +216,25 @@ fn audit(s: &mut String, results: &Value, figs: &[PageFigure]) {
             object_table(
                 s,
                 &rows,
-                &[
-                    ("name", "model variant"),
-                    ("delta_bic", "ΔBIC"),
-                    ("k_mps", "K [m/s]"),
-                    ("mass_mearth", "mass [M⊕]"),
-                    ("k_shift_sigma", "ΔK/σ"),
-                ],
+                if rows.iter().any(|r| r["k_posterior"].is_object()) {
+                    &[
+                        ("name", "model variant"),
+                        ("delta_bic", "ΔBIC"),
+                        ("k_mps", "K [m/s]"),
+                        ("mass_mearth", "mass [M⊕]"),
+                        ("k_shift_sigma", "ΔK/σ"),
+                        ("k_posterior", "K, posterior [m/s]"),
+                        ("mass_posterior", "mass, posterior [M⊕]"),
+                    ]
+                } else {
+                    &[
+                        ("name", "model variant"),
+                        ("delta_bic", "ΔBIC"),
+                        ("k_mps", "K [m/s]"),
+                        ("mass_mearth", "mass [M⊕]"),
+                        ("k_shift_sigma", "ΔK/σ"),
+                    ]
+                },
             );
         }
     }

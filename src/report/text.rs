@@ -235,7 +235,7 @@ audit verdict: {}",
                 Some(p) => (format_summary(&p.k_mps), mass_cell(p.mass_mearth.as_ref())),
                 None => ("(no such signal)".into(), "—".into()),
             };
-            let _ = writeln!(
+            let _ = write!(
                 s,
                 "    {:<44} {:>9.2} {:>18} {:>18} {:>7}",
                 v.name,
@@ -245,6 +245,16 @@ audit verdict: {}",
                 v.k_shift_sigma
                     .map_or_else(|| "—".into(), |z| format!("{z:+.2}")),
             );
+            if let Some(p) = &v.posterior {
+                let _ = write!(
+                    s,
+                    "   posterior: K {} m/s, mass {} M⊕{}",
+                    format_summary(&p.k_mps),
+                    mass_cell(p.mass_mearth.as_ref()),
+                    if p.converged { "" } else { " (not converged)" }
+                );
+            }
+            s.push('\n');
         }
         if let Some(cv) = &pa.signal_count {
             let scores: Vec<String> = cv
