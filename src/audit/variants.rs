@@ -213,7 +213,7 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
         single.remove(inner);
         jobs.push((
             format!(
-                "one eccentric planet instead of {} and {} (2:1)",
+                "one eccentric planet for {} and {} (2:1)",
                 specs[inner].label, specs[outer].label
             ),
             set.clone(),

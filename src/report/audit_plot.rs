@@ -6,22 +6,22 @@ use std::fmt::Write;
 
 use serde_json::Value;
 
-use super::figure::esc;
+use super::figure::{
+    COLUMN_PT, INK, LABEL_PT, MUTED, SERIES, Svg, esc, linear_ticks, padded_range,
+};
 use crate::summary::Summary;
 
-/// Geometry, px (one journal column at 96 dpi wide).
-const WIDTH: f64 = 480.0;
-const LABEL_W: f64 = 210.0;
-const RIGHT: f64 = 14.0;
-const ROW: f64 = 17.0;
-const PANEL_TOP: f64 = 26.0;
-const AXIS_H: f64 = 34.0;
-/// Colours of our own: black for the baseline, dark blue for competitive variants, mid
-/// grey for the others and subsets (distinct in greyscale by fill: solid against hollow).
-const INK: &str = "#222222";
-const MAIN: &str = "#1f5fa8";
-const MUTED: &str = "#8c8c8c";
-const BAND: &str = "#dfe8f3";
+/// Geometry, pt: one journal column wide ([`COLUMN_PT`]), labels at the left.
+const LABEL_W: f64 = 128.0;
+const RIGHT: f64 = 8.0;
+const ROW: f64 = 9.5;
+const PANEL_TOP: f64 = 16.0;
+const AXIS_H: f64 = 24.0;
+/// Competitive variants in the series' first colour (navy), the others in the report's
+/// muted colour and hollow, the audited fit in ink: distinct in greyscale by fill.
+const MAIN: &str = SERIES[0].0;
+/// The audited fit's 1σ band.
+const BAND: &str = "#e4e9f2";
 
 /// How a row is drawn.
 #[derive(Clone, Copy, PartialEq)]
@@ -54,17 +54,6 @@ fn estimate(v: &Value) -> Option<Summary> {
 /// The quantity plotted for a planet's values: mass when known, else K.
 fn quantity(p: &Value) -> Option<Summary> {
     estimate(&p["mass_mearth"]).or_else(|| estimate(&p["k_mps"]))
-}
-
-/// "Nice" tick step for a span.
-fn tick_step(span: f64) -> f64 {
-    let raw = span / 5.0;
-    let mag = 10f64.powf(raw.log10().floor());
-    [1.0, 2.0, 5.0, 10.0]
-        .iter()
-        .map(|m| m * mag)
-        .find(|s| *s >= raw)
-        .unwrap_or(10.0 * mag)
 }
 
 /// The audit figure, drawn from the `audit` block of a results file (so a saved run can be
@@ -112,31 +101,22 @@ pub fn audit_svg(audit: &Value) -> String {
         .iter()
         .map(|(_, _, rows, _)| PANEL_TOP + ROW * rows.len() as f64 + AXIS_H)
         .sum::<f64>()
-        + 22.0;
-    let mut out = String::new();
-    let _ = writeln!(
-        out,
-        r#"<svg xmlns="http://www.w3.org/2000/svg" width="{WIDTH}" height="{height:.0}" viewBox="0 0 {WIDTH} {height:.0}" font-family="sans-serif" font-size="11">"#
-    );
-    let _ = writeln!(out, r#"<rect width="100%" height="100%" fill="white"/>"#);
+        + 12.0;
+    let mut svg = Svg::new(height, "Mass under each model variant and data subset");
+    let out = &mut svg.body;
     let mut top = 0.0;
     for (label, verdict, rows, is_mass) in &panels {
-        let lo = rows
-            .iter()
-            .map(|r| r.value.value - r.value.minus)
-            .fold(f64::INFINITY, f64::min)
-            .min(0.0);
-        let hi = rows
-            .iter()
-            .map(|r| r.value.value + r.value.plus)
-            .fold(f64::NEG_INFINITY, f64::max);
-        let hi = if hi > lo { hi * 1.05 } else { lo + 1.0 };
-        let x = |v: f64| LABEL_W + (v - lo) / (hi - lo) * (WIDTH - LABEL_W - RIGHT);
+        let (lo, hi) = padded_range(
+            rows.iter()
+                .flat_map(|r| [r.value.value - r.value.minus, r.value.value + r.value.plus]),
+            0.06,
+        );
+        let x = |v: f64| LABEL_W + (v - lo) / (hi - lo) * (COLUMN_PT - LABEL_W - RIGHT);
         let unit = if *is_mass { "mass (M⊕)" } else { "K (m/s)" };
         let _ = writeln!(
             out,
-            r#"<text x="8" y="{:.1}" font-weight="bold" fill="{INK}">planet {} — {}: {}</text>"#,
-            top + 16.0,
+            r#"<text x="4" y="{:.1}" font-size="{LABEL_PT}" font-weight="bold">planet {} — {}: {}</text>"#,
+            top + 11.0,
             esc(label),
             unit,
             esc(verdict)
@@ -168,55 +148,53 @@ pub fn audit_svg(audit: &Value) -> String {
             };
             let _ = writeln!(
                 out,
-                r#"<text x="{:.1}" y="{:.1}" text-anchor="end" fill="{INK}">{}</text>"#,
-                LABEL_W - 6.0,
-                y + 4.0,
+                r#"<text x="{:.1}" y="{:.1}" text-anchor="end">{}</text>"#,
+                LABEL_W - 4.0,
+                y + 2.4,
                 esc(&r.label)
             );
             let _ = writeln!(
                 out,
-                r#"<line class="error-bar" x1="{:.1}" x2="{:.1}" y1="{y:.1}" y2="{y:.1}" stroke="{colour}" stroke-width="1.5"/>"#,
+                r#"<line class="error-bar" x1="{:.1}" x2="{:.1}" y1="{y:.1}" y2="{y:.1}" stroke="{colour}" stroke-width="0.8"/>"#,
                 x(r.value.value - r.value.minus),
                 x(r.value.value + r.value.plus)
             );
             let _ = writeln!(
                 out,
-                r#"<circle class="estimate" cx="{:.1}" cy="{y:.1}" r="3.5" fill="{fill}" stroke="{colour}" stroke-width="1.5"/>"#,
+                r#"<circle class="estimate" cx="{:.1}" cy="{y:.1}" r="2.2" fill="{fill}" stroke="{colour}" stroke-width="0.8"/>"#,
                 x(r.value.value)
             );
         }
         let axis_y = body_top + body_h + 4.0;
         let _ = writeln!(
             out,
-            r#"<line x1="{LABEL_W}" x2="{:.1}" y1="{axis_y:.1}" y2="{axis_y:.1}" stroke="{INK}"/>"#,
-            WIDTH - RIGHT
+            r#"<line x1="{LABEL_W}" x2="{:.1}" y1="{axis_y:.1}" y2="{axis_y:.1}" stroke="{INK}" stroke-width="0.6"/>"#,
+            COLUMN_PT - RIGHT
         );
-        let step = tick_step(hi - lo);
-        let mut t = (lo / step).ceil() * step;
-        while t <= hi + 1e-9 * step {
+        let (ticks, decimals) = linear_ticks(lo, hi, 5);
+        for t in ticks {
             let _ = writeln!(
                 out,
-                r#"<line x1="{0:.1}" x2="{0:.1}" y1="{axis_y:.1}" y2="{1:.1}" stroke="{INK}"/><text x="{0:.1}" y="{2:.1}" text-anchor="middle" fill="{INK}">{3}</text>"#,
+                r#"<line x1="{0:.1}" x2="{0:.1}" y1="{axis_y:.1}" y2="{1:.1}" stroke="{INK}" stroke-width="0.6"/><text x="{0:.1}" y="{2:.1}" text-anchor="middle">{3:.4$}</text>"#,
                 x(t),
-                axis_y + 4.0,
-                axis_y + 16.0,
-                (t * 1e6).round() / 1e6
+                axis_y + 2.5,
+                axis_y + 9.5,
+                t,
+                decimals
             );
-            t += step;
         }
         let _ = writeln!(
             out,
-            r#"<text x="{:.1}" y="{:.1}" text-anchor="middle" fill="{INK}">{unit}</text>"#,
-            0.5 * (LABEL_W + WIDTH - RIGHT),
-            axis_y + 29.0
+            r#"<text x="{:.1}" y="{:.1}" text-anchor="middle" font-size="{LABEL_PT}">{unit}</text>"#,
+            0.5 * (LABEL_W + COLUMN_PT - RIGHT),
+            axis_y + 19.0
         );
-        top = axis_y + AXIS_H - 4.0;
+        top = axis_y + AXIS_H - 2.0;
     }
     let _ = writeln!(
         out,
-        r#"<text x="8" y="{:.1}" fill="{INK}" font-size="10">● baseline (black) and competitive variants, within the ΔBIC limit of the best (blue); ○ other variants and subsets; band: baseline ±1σ</text>"#,
-        height - 6.0
+        r#"<text x="4" y="{:.1}" font-size="6">filled: audited (black), competitive (blue); open: others; band: audited ±1σ</text>"#,
+        height - 4.0
     );
-    out.push_str("</svg>\n");
-    out
+    svg.finish()
 }
