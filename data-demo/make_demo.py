@@ -467,7 +467,7 @@ Run it with
     heft run data-demo/ostrel-12.toml
 
 or look at pieces, e.g. `heft periodogram data-demo/quill.csv data-demo/fennick.tsv` or
-`heft fit data-demo/quill.csv data-demo/fennick.tsv --activity quasiperiodic --rotation-d 6.5`.
+`heft audit data-demo/quill.csv data-demo/fennick.tsv --period 47.3 --rotation-d 6.4`.
 
 ## The scenario
 
