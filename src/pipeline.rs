@@ -86,6 +86,63 @@ pub struct Request<'a> {
     pub priors: PriorChoices,
     /// Model choices of the density report.
     pub profile: ProfileSettings,
+    /// A previous solution to start the search's fits from (see [`fit::search_warm`]).
+    pub warm: Vec<WarmPlanet>,
+}
+
+/// A planet of a previous solution, as a results file records it.
+#[derive(Clone, Debug, PartialEq)]
+pub struct WarmPlanet {
+    /// Label.
+    pub label: String,
+    /// Period, days.
+    pub period_d: f64,
+    /// Semi-amplitude, m/s.
+    pub k_mps: f64,
+    /// Eccentricity.
+    pub ecc: f64,
+    /// Star's argument of periastron, degrees.
+    pub omega_deg: f64,
+    /// Conjunction time, full BJD_TDB.
+    pub tc_bjd: f64,
+}
+
+impl WarmPlanet {
+    /// The planets of a results document (`planets[]` with `label`, `period_d`, `k_mps`,
+    /// `ecc`, `omega_deg`, `tc_d` estimates); planets missing a value are left out.
+    pub fn from_results(doc: &serde_json::Value) -> Vec<WarmPlanet> {
+        doc["planets"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .filter_map(|p| {
+                let v = |k: &str| p[k]["value"].as_f64();
+                Some(WarmPlanet {
+                    label: p["label"].as_str()?.to_string(),
+                    period_d: v("period_d")?,
+                    k_mps: v("k_mps")?,
+                    ecc: v("ecc")?,
+                    omega_deg: v("omega_deg")?,
+                    tc_bjd: v("tc_d")?,
+                })
+            })
+            .collect()
+    }
+
+    /// A fit start at this solution, times counted from `epoch_bjd`.
+    fn spec(&self, epoch_bjd: f64) -> PlanetSpec {
+        let w = self.omega_deg.to_radians();
+        PlanetSpec {
+            period_d: self.period_d,
+            fix_period: false,
+            k_mps: self.k_mps,
+            tc_d: self.tc_bjd - epoch_bjd,
+            ecc_vector: (self.ecc * w.cos(), self.ecc * w.sin()),
+            period_prior: None,
+            tc_prior: None,
+            label: self.label.clone(),
+        }
+    }
 }
 
 /// System-level checks (design: one block per system in results.json).
@@ -192,6 +249,9 @@ pub struct Analysis {
     pub periodograms: Option<Overview>,
     /// Audit of every planet; made by [`run_target`] (unless switched off) and `heft audit`.
     pub audit: Option<Audit>,
+    /// The run whose solution started the search, when warm-started (set by the caller
+    /// that found it; the started signals are in [`Search::warm_started`]).
+    pub warm_from: Option<String>,
 }
 
 /// Search settings from a target file's settings.
@@ -240,6 +300,18 @@ pub fn run_target(
     target: &Target,
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
+    run_target_from(target, &[], progress)
+}
+
+/// As [`run_target`], with the search started from a previous solution `warm`.
+///
+/// # Errors
+/// As [`run_target`].
+pub fn run_target_from(
+    target: &Target,
+    warm: &[WarmPlanet],
+    progress: &mut dyn FnMut(&Progress),
+) -> Result<Analysis, PipelineError> {
     let set = data::load(&target.data)?;
     let request = Request {
         name: target.name.clone(),
@@ -254,6 +326,7 @@ pub fn run_target(
         profile: profile_settings(&target.settings),
         sampler: target.settings.sample.then(|| target.settings.sampler()),
         priors: target.priors.clone(),
+        warm: warm.to_vec(),
     };
     let mut analysis = analyse(request, progress)?;
     analysis.periodograms = Some(periodogram_report(&analysis)?);
@@ -374,7 +447,8 @@ pub fn analyse(
         }
         known.push(spec);
     }
-    let search = fit::search(set, &known, &req.search)?;
+    let warm: Vec<PlanetSpec> = req.warm.iter().map(|w| w.spec(set.epoch_bjd)).collect();
+    let search = fit::search_warm(set, &known, &req.search, &warm)?;
     let signals = fit::signal_tests(set, &search, known.len())?;
 
     let posterior = match &req.sampler {
@@ -465,6 +539,7 @@ pub fn analyse(
         draws: req.draws,
         periodograms: None,
         audit: None,
+        warm_from: None,
     })
 }
 

@@ -205,6 +205,9 @@ pub struct Settings {
     /// Also sample the posterior of the baseline and of every model variant in the audit
     /// (default false: maximum likelihood; each posterior costs as much as the run's own).
     pub audit_posterior: bool,
+    /// Start `heft run` from the latest complete run's solution (default false: every run
+    /// starts afresh, so identical inputs give identical results).
+    pub warm_start: bool,
 }
 
 impl Default for Settings {
@@ -231,6 +234,7 @@ impl Default for Settings {
             draws_csv: false,
             audit: true,
             audit_posterior: false,
+            warm_start: false,
         }
     }
 }

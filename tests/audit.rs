@@ -88,6 +88,7 @@ fn audit_claim(set: RvSet, period: f64, seed: u64, star: &Star) -> (Analysis, Au
         sampler: None,
         priors: Default::default(),
         profile: pipeline::profile_settings(&defaults),
+        warm: Vec::new(),
     };
     let mut analysis = pipeline::analyse(request, &mut |_| {}).unwrap();
     let labels = vec![analysis.search.fit.planets[0].label.clone()];

@@ -262,3 +262,54 @@ fn a_killed_run_leaves_no_complete_folder_and_earlier_runs_intact() {
         "no folder of the killed run looks complete"
     );
 }
+
+#[test]
+fn a_warm_start_finds_the_same_solution() {
+    let dir = tempfile::tempdir().unwrap();
+    copy_demo(dir.path());
+    let target = dir.path().join("ostrel-12.toml");
+    let text = std::fs::read_to_string(&target).unwrap();
+    std::fs::write(&target, text + "warm_start = true\n").unwrap();
+    let target = target.to_str().unwrap();
+    let results = |out: &std::process::Output| -> Value {
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice(&out.stdout).unwrap()
+    };
+    let cold = results(&heft(&["run", target, "--json"]));
+    assert!(
+        cold.get("warm_start").is_none(),
+        "no earlier run to start from"
+    );
+    let warm = results(&heft(&["run", target, "--json"]));
+    let first = std::fs::read_dir(dir.path().join("runs"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n != "LATEST")
+        .min()
+        .unwrap();
+    assert_eq!(warm["warm_start"]["from_run"], first.as_str());
+    assert_eq!(warm["warm_start"]["signals"], serde_json::json!(["b", "c"]));
+    // The same optimum from either start (to far below the errors).
+    for (a, b) in cold["planets"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .zip(warm["planets"].as_array().unwrap())
+    {
+        for key in ["period_d", "k_mps", "ecc"] {
+            let (x, y) = (
+                a[key]["value"].as_f64().unwrap(),
+                b[key]["value"].as_f64().unwrap(),
+            );
+            let sigma = a[key]["plus"].as_f64().unwrap();
+            assert!(
+                (x - y).abs() < 0.01 * sigma,
+                "{key}: {x} against {y} (σ {sigma})"
+            );
+        }
+    }
+}

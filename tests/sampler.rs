@@ -200,6 +200,7 @@ fn request<'a>(inj: &'a Injected, sampler: SamplerSettings) -> Request<'a> {
         profile: pipeline::profile_settings(&Default::default()),
         sampler: Some(sampler),
         priors: Default::default(),
+        warm: Vec::new(),
     }
 }
 

@@ -127,6 +127,7 @@ impl FitArgs {
                 .sampler()
             }),
             priors: Default::default(),
+            warm: Vec::new(),
         })
     }
 }

@@ -34,6 +34,15 @@ pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
             Failure::Internal(e.into())
         }
     })?;
+    if let Some(from) = &done.analysis.warm_from {
+        super::note(&format!(
+            "warm start from run {from}: {} started from their previous solution",
+            match done.analysis.search.warm_started.as_slice() {
+                [] => "no signal".to_string(),
+                labels => labels.join(", "),
+            }
+        ));
+    }
     let code = print_results(&done.analysis, args.json)?;
     if !args.json {
         super::note(&format!("results written to {}", done.dir.display()));

@@ -11,7 +11,9 @@ mod search;
 mod significance;
 
 pub use layout::{Layout, PlanetSpec, Role};
-pub use search::{Search, SearchSettings, SearchStep, SignalCount, next_label, search};
+pub use search::{
+    Search, SearchSettings, SearchStep, SignalCount, next_label, search, search_warm,
+};
 pub use significance::{
     EccentricityTest, LUCY_SWEENEY_LEVEL, SignalTest, lucy_sweeney_p, signal_tests,
 };

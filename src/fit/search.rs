@@ -52,6 +52,8 @@ pub struct Search {
     pub fit: Fit,
     /// Rounds in order (the first is the periodogram of the data after the known planets).
     pub steps: Vec<SearchStep>,
+    /// Labels of the planets started from a previous solution ([`search_warm`]).
+    pub warm_started: Vec<String>,
 }
 
 /// Label for a new signal: the first of b, c, d, … not in use.
@@ -71,12 +73,45 @@ pub fn search(
     known: &[PlanetSpec],
     settings: &SearchSettings,
 ) -> Result<Search, FitError> {
+    search_warm(set, known, settings, &[])
+}
+
+/// As [`search`], started from a previous solution `warm` (e.g. the last run's): a known
+/// planet starts at the K and eccentricity of the warm planet with its label, and a signal
+/// the search adds starts at the warm planet whose frequency is within `1/span` of the
+/// peak's, which spares the optimiser the extra starts of a new, circular signal. Which
+/// signals are found is decided exactly as without a warm start.
+///
+/// # Errors
+/// As [`search`].
+pub fn search_warm(
+    set: &RvSet,
+    known: &[PlanetSpec],
+    settings: &SearchSettings,
+    warm: &[PlanetSpec],
+) -> Result<Search, FitError> {
     let span = set.baseline_d();
     let pmax = settings.period_max_d.unwrap_or(span);
     let fmin = 1.0 / pmax;
     let fmax = 1.0 / settings.period_min_d;
     let grid = Grid::with_oversampling(fmin, fmax, span, settings.oversample)?;
-    let mut planets = known.to_vec();
+    // Labels of the planets started warm, and of the warm planets used.
+    let (mut warm_started, mut used) = (Vec::new(), Vec::new());
+    let mut planets: Vec<PlanetSpec> = known
+        .iter()
+        .map(|k| match warm.iter().find(|w| w.label == k.label) {
+            Some(w) => {
+                warm_started.push(k.label.clone());
+                used.push(w.label.clone());
+                PlanetSpec {
+                    k_mps: w.k_mps,
+                    ecc_vector: w.ecc_vector,
+                    ..k.clone()
+                }
+            }
+            None => k.clone(),
+        })
+        .collect();
     let mut current = fit(set, &planets, &settings.options)?;
     let mut steps = Vec::new();
     let (limit, forced) = match settings.count {
@@ -102,16 +137,36 @@ pub fn search(
         let (true, Some(peak)) = (accepted, peak) else {
             break;
         };
-        let sine =
-            periodogram::sinusoid_at(&residual, &current.params.jitters_mps, peak.frequency)?;
         let label = next_label(&planets);
+        let previous = warm.iter().find(|w| {
+            (1.0 / w.period_d - peak.frequency).abs() < 1.0 / span && !used.contains(&w.label)
+        });
+        let spec = match previous {
+            Some(w) => {
+                warm_started.push(label.clone());
+                used.push(w.label.clone());
+                PlanetSpec {
+                    label: label.clone(),
+                    ..w.clone()
+                }
+            }
+            None => {
+                let sine = periodogram::sinusoid_at(
+                    &residual,
+                    &current.params.jitters_mps,
+                    peak.frequency,
+                )?;
+                PlanetSpec::from_sinusoid(&sine, &label)
+            }
+        };
         // Start the known signals where the last fit left them.
         planets = current.planet_specs();
-        planets.push(PlanetSpec::from_sinusoid(&sine, &label));
+        planets.push(spec);
         current = fit(set, &planets, &settings.options)?;
     }
     Ok(Search {
         fit: current,
         steps,
+        warm_started,
     })
 }

@@ -167,6 +167,12 @@ pub fn results_json(a: &Analysis) -> Value {
     if let (Some(audit), Value::Object(map)) = (&a.audit, &mut doc) {
         map.insert("audit".into(), json!(audit));
     }
+    if let (Some(from), Value::Object(map)) = (&a.warm_from, &mut doc) {
+        map.insert(
+            "warm_start".into(),
+            json!({"from_run": from, "signals": a.search.warm_started}),
+        );
+    }
     doc
 }
 

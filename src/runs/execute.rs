@@ -63,7 +63,24 @@ pub fn execute(
         return Err(RunError::OutNotEmpty(out.to_path_buf()));
     }
     let manifest = super::manifest(&target).map_err(RunError::Checksum)?;
-    let analysis = pipeline::run_target(&target, progress)?;
+    // The latest complete run's solution, when asked for and readable (a run that cannot
+    // be read just means a cold start).
+    let previous = if target.settings.warm_start {
+        super::complete_runs(target_file)
+            .ok()
+            .and_then(|runs| runs.last().cloned())
+            .and_then(|dir| {
+                let text = std::fs::read_to_string(dir.join("results.json")).ok()?;
+                let doc: serde_json::Value = serde_json::from_str(&text).ok()?;
+                let name = dir.file_name()?.to_string_lossy().into_owned();
+                Some((name, pipeline::WarmPlanet::from_results(&doc)))
+            })
+    } else {
+        None
+    };
+    let warm = previous.as_ref().map_or(&[][..], |p| p.1.as_slice());
+    let mut analysis = pipeline::run_target_from(&target, warm, progress)?;
+    analysis.warm_from = previous.map(|p| p.0);
     let dir = crate::report::write_run(
         &analysis,
         &manifest,
