@@ -293,6 +293,9 @@ fn a_warm_start_finds_the_same_solution() {
         .unwrap();
     assert_eq!(warm["warm_start"]["from_run"], first.as_str());
     assert_eq!(warm["warm_start"]["signals"], serde_json::json!(["b", "c"]));
+    // Both planets start eccentric: 4 extra starts each spared, and some time with them.
+    assert_eq!(warm["warm_start"]["starts_spared"], 8);
+    assert!(warm["warm_start"]["estimated_saving_s"].as_f64().unwrap() > 0.0);
     // The same optimum from either start (to far below the errors).
     for (a, b) in cold["planets"]
         .as_array()

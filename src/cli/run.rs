@@ -35,12 +35,16 @@ pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
         }
     })?;
     if let Some(from) = &done.analysis.warm_from {
+        let s = &done.analysis.search;
         super::note(&format!(
-            "warm start from run {from}: {} started from their previous solution",
-            match done.analysis.search.warm_started.as_slice() {
+            "warm start from run {from}: {} started from their previous solution; fits took {:.2} s, about {:.2} s less than a cold start ({} optimiser starts spared)",
+            match s.warm_started.as_slice() {
                 [] => "no signal".to_string(),
                 labels => labels.join(", "),
-            }
+            },
+            s.fit_s,
+            s.saved_s,
+            s.starts_spared
         ));
     }
     let code = print_results(&done.analysis, args.json)?;

@@ -54,6 +54,10 @@ pub enum FitError {
     Periodogram(#[from] crate::periodogram::PeriodogramError),
 }
 
+/// Extra optimiser starts (ω at 0°, 90°, 180°, 270° with e = 0.3) for each planet that
+/// starts circular in an eccentric fit.
+pub const FRESH_STARTS: usize = 4;
+
 /// Model options of a fit.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct FitOptions {
@@ -149,6 +153,8 @@ pub struct Fit {
     pub options: FitOptions,
     /// Findings worth showing the user.
     pub warnings: Vec<String>,
+    /// Optimiser runs the fit took (several starts, a refit after flipping K).
+    pub starts: usize,
 }
 
 impl Fit {
@@ -292,8 +298,8 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
             let ie = layout
                 .index(Role::ECosW(i))
                 .expect("eccentric layout has e cos w");
-            for q in 0..4 {
-                let w = f64::from(q) * std::f64::consts::FRAC_PI_2;
+            for q in 0..FRESH_STARTS {
+                let w = q as f64 * std::f64::consts::TAU / FRESH_STARTS as f64;
                 let mut s = start.clone();
                 s[ie] = 0.3 * w.cos();
                 s[ie + 1] = 0.3 * w.sin();
@@ -301,6 +307,7 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
             }
         }
     }
+    let starts_len = starts.len();
     let mut best: Option<(Vec<f64>, f64)> = None;
     for s in starts {
         let (theta, value) = optimize::minimise(&objective, &s, &scale, 4);
@@ -308,14 +315,19 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
             best = Some((theta, value));
         }
     }
+    let mut n_starts = starts_len;
     let (mut theta, mut value) = best.ok_or(FitError::NoFiniteLikelihood)?;
     if flip_negative_amplitudes(&layout, &mut theta, options.max_ecc) {
         (theta, value) = optimize::minimise(&objective, &theta, &scale, 4);
+        n_starts += 1;
     }
     if !value.is_finite() {
         return Err(FitError::NoFiniteLikelihood);
     }
-    Ok(finish(set, layout, theta, options))
+    Ok(Fit {
+        starts: n_starts,
+        ..finish(set, layout, theta, options)
+    })
 }
 
 /// θ from the specs, offsets at each instrument's weighted mean of the data minus the
@@ -514,6 +526,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
         regressors,
         options: *options,
         warnings,
+        starts: 1,
     }
 }
 

@@ -170,7 +170,13 @@ pub fn results_json(a: &Analysis) -> Value {
     if let (Some(from), Value::Object(map)) = (&a.warm_from, &mut doc) {
         map.insert(
             "warm_start".into(),
-            json!({"from_run": from, "signals": a.search.warm_started}),
+            json!({
+                "from_run": from,
+                "signals": a.search.warm_started,
+                "fit_s": a.search.fit_s,
+                "starts_spared": a.search.starts_spared,
+                "estimated_saving_s": a.search.saved_s,
+            }),
         );
     }
     doc
