@@ -106,3 +106,23 @@ fn threads_and_shards_agree_and_failures_are_contained() {
     assert_eq!(df.height(), merged.lines().count() - 1);
     assert_eq!(df.column("k_mps").unwrap().dtype(), &DataType::Float64);
 }
+
+#[test]
+fn a_memory_bound_limits_targets_run_at_once() {
+    let dir = tempfile::tempdir().unwrap();
+    for i in 0..3 {
+        write_target(dir.path(), i);
+    }
+    let folder = dir.path().to_str().unwrap();
+    // Each small target is estimated at about 64 MB: 100 MB allows one at a time.
+    let out = heft(&["batch", folder, "--threads", "2", "--max-memory-mb", "100"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("running 1 target(s) at once"), "{err}");
+    let bad = heft(&["batch", folder, "--max-memory-mb", "-5"]);
+    assert_eq!(bad.status.code(), Some(2));
+}

@@ -24,6 +24,10 @@ pub struct BatchArgs {
     /// Most targets run at once (default: all cores).
     #[arg(long)]
     threads: Option<usize>,
+    /// Run fewer targets at once so that their estimated peak memory stays under this
+    /// many MB (see docs/batch.md for the estimate).
+    #[arg(long, value_name = "MB")]
+    max_memory_mb: Option<f64>,
     /// Merge the shards' summary tables in FOLDER into batch-summary.csv instead of running.
     #[arg(long, conflicts_with = "shard")]
     gather: bool,
@@ -54,9 +58,29 @@ pub fn run(args: &BatchArgs) -> Result<ExitCode, Failure> {
         .filter(|(i, _)| shard.is_none_or(|s| s.contains(*i)))
         .map(|(_, t)| t.clone())
         .collect();
-    let threads = args
+    let mut threads = args
         .threads
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    if let Some(budget) = args.max_memory_mb {
+        if !(budget.is_finite() && budget > 0.0) {
+            return Err(input(anyhow!(
+                "--max-memory-mb must be positive, got {budget}"
+            )));
+        }
+        // Targets that do not load fail later with their own message; they count as small.
+        let largest = mine
+            .iter()
+            .filter_map(|t| heft::target::load(t).ok())
+            .map(|t| runs::memory_estimate_mb(&t))
+            .fold(0.0_f64, f64::max);
+        let fit = ((budget / largest.max(1.0)).floor() as usize).max(1);
+        if fit < threads {
+            super::note(&format!(
+                "running {fit} target(s) at once: each may need about {largest:.0} MB of the {budget:.0} MB allowed"
+            ));
+            threads = fit;
+        }
+    }
     let busy = super::spinner(&format!("running {} target(s)", mine.len()));
     let outcomes = runs::run_batch(&mine, threads);
     busy.finish_and_clear();

@@ -198,6 +198,31 @@ fn rows_of(target: &Path, done: &super::Completed) -> Vec<String> {
         .collect()
 }
 
+/// Chain steps assumed for a sampled target in [`memory_estimate_mb`] (a converged
+/// multi-planet posterior takes about 20 000, bounded by `max_steps`).
+const TYPICAL_STEPS: usize = 30_000;
+
+/// Rough peak memory of one run of `target`, MB: 64 MB for the process's share, tables
+/// and periodograms; the derived-quantity draws (about 40 columns); with sampling, the
+/// chains (steps × walkers × ensembles × parameters, 8 bytes each) for
+/// `min(max_steps, 30 000)` steps and up to `max_signals` planets.
+pub fn memory_estimate_mb(target: &crate::target::Target) -> f64 {
+    let s = &target.settings;
+    let draws = s.draws as f64 * 40.0 * 8.0;
+    let chains = if s.sample {
+        let dim = 5 * s.max_signals.max(target.transits.len()) + 2 * target.data.len() + s.trend;
+        let walkers = if s.walkers > 0 {
+            s.walkers
+        } else {
+            (2 * dim + 2).max(16)
+        };
+        (s.max_steps.min(TYPICAL_STEPS) * walkers * s.ensembles.max(2) * dim) as f64 * 8.0
+    } else {
+        0.0
+    };
+    64.0 + (draws + chains) / 1e6
+}
+
 /// Runs every target (each into a new folder under its own `runs/`) on a pool of at most
 /// `threads` threads; a failed target is reported in its outcome and the others go on.
 /// Outcomes are in the order of `targets`.

@@ -11,8 +11,8 @@ mod execute;
 mod plan;
 
 pub use batch::{
-    BatchOutcome, Discovery, Shard, ShardError, discover, gather, run_batch, shard_from_env,
-    summary_csv, summary_parquet,
+    BatchOutcome, Discovery, Shard, ShardError, discover, gather, memory_estimate_mb, run_batch,
+    shard_from_env, summary_csv, summary_parquet,
 };
 pub use changes::{Changes, PlanetChange, changes_text, compare};
 pub use epochs::{AddError, Added, add_epochs};
