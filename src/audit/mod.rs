@@ -27,7 +27,7 @@ use std::time::Instant;
 use serde::Serialize;
 
 use crate::derive::DeriveError;
-use crate::fit::{Fit, FitError};
+use crate::fit::{Fit, FitError, PlanetSpec};
 use crate::periodogram::PeriodogramError;
 use crate::pipeline::Analysis;
 use crate::summary::Summary;
@@ -227,7 +227,11 @@ pub fn audit(
         let mut specs = refit.specs();
         for (i, f) in &corrected {
             if let Some(spec) = f.planet_specs().into_iter().nth(*i) {
-                specs[*i] = spec;
+                // The alias refit held the period near the alias; the corrected fit is free.
+                specs[*i] = PlanetSpec {
+                    period_prior: None,
+                    ..spec
+                };
             }
         }
         if let Ok(f) = crate::fit::fit(refit.set, &specs, &refit.options()) {
