@@ -269,6 +269,9 @@ fn demo_report_holds_every_figure_and_rebuilds() {
         assert_eq!(&read(p), b, "{} differs after render", p.display());
     }
     assert_eq!(read(&run_dir.join("results.json")), results_before);
+    let json = heft(&["render", run_dir.to_str().unwrap(), "--json"]);
+    let doc: Value = serde_json::from_slice(&json.stdout).unwrap();
+    assert_eq!(doc["written"].as_array().unwrap().len(), report_files.len());
 }
 
 /// With posterior draws: the corner plot (one histogram per main parameter), the

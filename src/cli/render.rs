@@ -13,16 +13,25 @@ pub struct RenderArgs {
     /// The run folder (holding results.json and data_used.csv).
     #[arg(value_name = "RUN_FOLDER")]
     run: PathBuf,
+    /// Print the files written as JSON (`{"written": [...]}`).
+    #[arg(long)]
+    json: bool,
 }
 
-/// Runs the command: prints the files written, one per line.
+/// Runs the command: prints the files written, one per line (or as JSON).
 pub fn run(args: &RenderArgs) -> Result<ExitCode, Failure> {
     let written = report::render(&args.run).map_err(|e| match e {
         RenderError::Saved(_) => Failure::Input(e.into()),
         RenderError::Write { .. } => Failure::Internal(e.into()),
     })?;
-    for path in written {
-        println!("{}", path.display());
-    }
+    let text = if args.json {
+        serde_json::json!({ "written": written }).to_string() + "\n"
+    } else {
+        written
+            .iter()
+            .map(|p| format!("{}\n", p.display()))
+            .collect()
+    };
+    super::emit(&text, args.json)?;
     Ok(ExitCode::SUCCESS)
 }
