@@ -53,15 +53,16 @@ impl Params {
 
     /// Model RV of every point of `set` (planets + offset + trend + indicator terms), m/s.
     pub fn predict(&self, set: &RvSet) -> Vec<f64> {
-        (0..set.len())
-            .map(|i| {
-                let t = set.time_d[i];
-                self.planets_rv(t)
-                    + self.offsets_mps[set.instrument[i]]
-                    + self.trend_rv(t)
-                    + self.regressors_rv(set, i)
-            })
-            .collect()
+        let mut model = vec![0.0; set.len()];
+        for p in &self.planets {
+            p.add_rv(&set.time_d, &mut model);
+        }
+        for (i, m) in model.iter_mut().enumerate() {
+            let t = set.time_d[i];
+            *m +=
+                self.offsets_mps[set.instrument[i]] + self.trend_rv(t) + self.regressors_rv(set, i);
+        }
+        model
     }
 
     /// Observed minus model, m/s.
@@ -74,24 +75,37 @@ impl Params {
     }
 
     /// Gaussian log-likelihood of `set` under these parameters (see [`log_likelihood`]).
-    /// Allocates nothing; each planet's constants (ω terms, 1/P, the Kepler solver's
-    /// table) are cached in its [`Orbit`].
+    /// Allocates nothing: the planets' RVs are summed 64 epochs at a time in a
+    /// stack buffer ([`Orbit::add_rv`], vectorised), and each planet's constants (ω
+    /// terms, 1/P, the Kepler solver's table) are cached in its [`Orbit`].
     pub fn log_likelihood(&self, set: &RvSet) -> f64 {
         let mut sum = GaussianSum::default();
-        for i in 0..set.len() {
-            let t = set.time_d[i];
-            let k = set.instrument[i];
-            let r = set.rv_mps[i]
-                - self.planets_rv(t)
-                - self.offsets_mps[k]
-                - self.trend_rv(t)
-                - self.regressors_rv(set, i);
-            let (sigma, s) = (set.err_mps[i], self.jitters_mps[k]);
-            sum.add(r, sigma * sigma + s * s);
+        let mut planets = [0.0; CHUNK];
+        for start in (0..set.len()).step_by(CHUNK) {
+            let end = (start + CHUNK).min(set.len());
+            let curve = &mut planets[..end - start];
+            curve.fill(0.0);
+            for p in &self.planets {
+                p.add_rv(&set.time_d[start..end], curve);
+            }
+            for (i, &planet_rv) in (start..end).zip(curve.iter()) {
+                let t = set.time_d[i];
+                let k = set.instrument[i];
+                let r = set.rv_mps[i]
+                    - planet_rv
+                    - self.offsets_mps[k]
+                    - self.trend_rv(t)
+                    - self.regressors_rv(set, i);
+                let (sigma, s) = (set.err_mps[i], self.jitters_mps[k]);
+                sum.add(r, sigma * sigma + s * s);
+            }
         }
         sum.total()
     }
 }
+
+/// Epochs per block of [`Params::log_likelihood`].
+const CHUNK: usize = 64;
 
 /// Points whose variances are multiplied before one logarithm is taken.
 const LOG_CHUNK: usize = 16;

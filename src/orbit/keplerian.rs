@@ -3,6 +3,8 @@
 use std::f64::consts::{FRAC_PI_2, TAU};
 
 use super::kepler::KeplerSolver;
+#[cfg(target_arch = "x86_64")]
+use super::kepler::wide;
 
 /// Why orbital elements were refused.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -115,6 +117,32 @@ impl Orbit {
         (self.k_cos_w * (a.cos - self.ecc) - self.k_root_sin_w * a.sin) / (1.0 - self.ecc * a.cos)
             + self.k_e_cos_w
     }
+
+    /// Adds this planet's RV (m/s) at each time of `t_d` (days) to `out`: [`Orbit::rv`]
+    /// for many times, with the same results bit for bit, eight at a time on processors
+    /// with AVX-512.
+    ///
+    /// # Panics
+    /// If the two slices differ in length.
+    pub fn add_rv(&self, t_d: &[f64], out: &mut [f64]) {
+        assert_eq!(t_d.len(), out.len(), "one output per time");
+        #[cfg(target_arch = "x86_64")]
+        if wide::available() {
+            let curve = wide::Curve {
+                tp_d: self.tp_d,
+                inv_period: self.inv_period,
+                k_cos_w: self.k_cos_w,
+                k_root_sin_w: self.k_root_sin_w,
+                k_e_cos_w: self.k_e_cos_w,
+            };
+            // SAFETY: the processor has AVX-512.
+            unsafe { wide::add_rv(&self.solver, &curve, t_d, out, |t| self.rv(t)) };
+            return;
+        }
+        for (v, &t) in out.iter_mut().zip(t_d) {
+            *v += self.rv(t);
+        }
+    }
 }
 
 /// Time of periastron (days) from conjunction time: with `nu_c = pi/2 - omega`,
@@ -143,6 +171,35 @@ mod tests {
         for (e, w_deg, expect) in cases {
             let tp = periastron_from_conjunction(1.0, e, f64::to_radians(w_deg), 0.0);
             assert!((-tp - expect).abs() < 1e-6, "e={e} w={w_deg}: {}", -tp);
+        }
+    }
+
+    /// `add_rv` (vectorised where the processor allows) adds exactly what `rv` gives at
+    /// each time, high eccentricities included.
+    #[test]
+    fn add_rv_matches_rv_bit_for_bit() {
+        let t: Vec<f64> = (0..203)
+            .map(|i| -300.0 + 2.9 * i as f64 + (i as f64).sin())
+            .collect();
+        for &(e, w) in &[
+            (0.0, 0.3),
+            (0.2, 1.0),
+            (0.6, 4.0),
+            (0.95, 2.5),
+            (0.999, 5.9),
+        ] {
+            let o = Orbit::new(7.3, 10.0, e, w, 3.0).unwrap();
+            let base: Vec<f64> = t.iter().map(|x| 0.1 * x).collect();
+            let mut out = base.clone();
+            o.add_rv(&t, &mut out);
+            for i in 0..t.len() {
+                assert_eq!(
+                    out[i].to_bits(),
+                    (base[i] + o.rv(t[i])).to_bits(),
+                    "e={e} t={}",
+                    t[i]
+                );
+            }
         }
     }
 

@@ -49,7 +49,7 @@ impl Ensemble {
         F: Fn(&[f64]) -> f64 + Sync,
     {
         assert!(
-            positions.len() >= 4 && positions.len() % 2 == 0,
+            positions.len() >= 4 && positions.len().is_multiple_of(2),
             "an ensemble needs an even number of walkers ≥ 4, got {}",
             positions.len()
         );
