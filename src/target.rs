@@ -198,6 +198,10 @@ pub struct Settings {
     pub max_rhat: f64,
     /// Step limit of the sampler (default 200 000).
     pub max_steps: usize,
+    /// Sample every alias of a planet's period that the data do not rule out as a mode
+    /// of its own and weigh the modes (default true; false: the maximum-likelihood mode
+    /// only).
+    pub period_modes: bool,
     /// Also write the draws as CSV beside the Parquet file (default false).
     pub draws_csv: bool,
     /// Audit every planet (aliases, model variants, activity, jackknife; default true).
@@ -231,6 +235,7 @@ impl Default for Settings {
             min_tau_multiple: 50.0,
             max_rhat: 1.01,
             max_steps: 200_000,
+            period_modes: true,
             draws_csv: false,
             audit: true,
             audit_posterior: false,
@@ -248,6 +253,7 @@ impl Settings {
             min_tau_multiple: self.min_tau_multiple,
             max_rhat: self.max_rhat,
             max_steps: self.max_steps,
+            period_modes: self.period_modes,
             seed: self.seed,
             ..crate::sample::SamplerSettings::default()
         }

@@ -341,3 +341,102 @@ jitter_mps = { log_uniform = [0.1, 10.0] }
             .contains("exactly one")
     );
 }
+
+/// One instrument's circular signal of semi-amplitude `k` (m/s) at `period_d` plus
+/// Gaussian noise `sigma` (m/s, quoted as the error), observed once a night on 40 of 150
+/// nights at 0.3 d after midnight ± `scatter_h` hours.
+fn nightly(seed: u64, period_d: f64, k: f64, sigma: f64, scatter_h: f64) -> Injected {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let mut nights = rand::seq::index::sample(&mut rng, 150, 40).into_vec();
+    nights.sort_unstable();
+    let t: Vec<f64> = nights
+        .iter()
+        .map(|&d| d as f64 - 75.0 + 0.3 + scatter_h / 24.0 * (2.0 * rng.random::<f64>() - 1.0))
+        .collect();
+    let phase = std::f64::consts::TAU * rng.random::<f64>();
+    let rv = t
+        .iter()
+        .map(|&t| {
+            k * (std::f64::consts::TAU * t / period_d + phase).sin()
+                + sigma * rng.sample::<f64, _>(StandardNormal)
+        })
+        .collect();
+    let n = t.len();
+    Injected {
+        set: RvSet::from_columns(
+            "nightly",
+            2_460_000.0,
+            t,
+            rv,
+            vec![sigma; n],
+            vec![0; n],
+            vec!["N".into()],
+        ),
+        period_d,
+        k_mps: k,
+        msini_mearth: f64::NAN,
+        star: Star::from_mass(1.0, 0.05),
+    }
+}
+
+/// Period modes. Visits once a night at a fixed clock hour make f and |f − 1/d| aliases
+/// (common practice). With the hour held within ±5 min and a low signal-to-noise ratio
+/// the data cannot tell P = 2.7 d from its alias 27/17 d: both must be sampled as modes,
+/// weights summing to 1, and the true period's mode must keep at least 1 % of the
+/// posterior in every realisation, whichever mode the values come from. With the hour
+/// scattered by ±2 h and a strong signal the alias is ruled out: one mode, weight 1.
+#[test]
+fn alias_modes_are_sampled_and_weighed() {
+    const P_TRUE: f64 = 2.7;
+    const P_ALIAS: f64 = 27.0 / 17.0;
+    let settings = SamplerSettings {
+        min_tau_multiple: 20.0,
+        max_rhat: 1.05,
+        ..SamplerSettings::default()
+    };
+    let circular = |inj: &Injected, s: u64| {
+        let mut r = request(
+            inj,
+            SamplerSettings {
+                seed: s,
+                ..settings
+            },
+        );
+        r.search.options.shape = OrbitShape::Circular;
+        let a = pipeline::analyse(r, &mut |_| {}).unwrap();
+        a.posterior.unwrap().modes
+    };
+    let near = |p: f64, q: f64| (p - q).abs() < 0.01 * q;
+    for s in 0..4u64 {
+        let modes = circular(&nightly(300 + s, P_TRUE, 3.0, 2.0, 5.0 / 60.0), s);
+        let summary: Vec<(f64, f64, f64)> = modes
+            .iter()
+            .map(|m| (m.planets[0].period_d.value, m.weight, m.ln_evidence_err))
+            .collect();
+        println!("undecidable set {s}: modes (period, weight, ln Z error) {summary:?}");
+        let total: f64 = modes.iter().map(|m| m.weight).sum();
+        assert!((total - 1.0).abs() < 1e-12, "weights sum to {total}");
+        let weight_at = |p: f64| {
+            modes
+                .iter()
+                .filter(|m| near(m.planets[0].period_d.value, p))
+                .map(|m| m.weight)
+                .sum::<f64>()
+        };
+        assert!(
+            modes
+                .iter()
+                .any(|m| near(m.planets[0].period_d.value, P_ALIAS))
+        );
+        assert!(
+            weight_at(P_TRUE) >= 0.01,
+            "true period's weight {}",
+            weight_at(P_TRUE)
+        );
+        assert!(modes.iter().all(|m| m.ln_evidence_err < 0.3), "{summary:?}");
+    }
+    let modes = circular(&nightly(400, P_TRUE, 6.0, 1.0, 2.0), 0);
+    assert_eq!(modes.len(), 1, "decisive data keep one mode");
+    assert_eq!(modes[0].weight, 1.0);
+    assert!(near(modes[0].planets[0].period_d.value, P_TRUE));
+}

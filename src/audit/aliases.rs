@@ -1,11 +1,10 @@
 //! Alias test: the full model refitted at each alias of a claimed period, and the
 //! simulation test of Dawson & Fabrycky (2010, ApJ 722, 937).
 //!
-//! Candidates are `|f ± f_w|` for the claimed frequency `f` and each of the three strongest
-//! peaks `f_w` of the spectral window (power ≥ 0.1), within the search range. Each is
-//! refitted with all other signals free, its period held near the alias by a Gaussian
-//! constraint of width `1/span` in frequency (so the optimiser cannot slide to another
-//! alias; the reported ln L excludes the constraint).
+//! Candidates and their refits come from [`crate::fit::alias_refits`]: `|f ± f_w|` for
+//! the claimed frequency `f` and the strongest peaks `f_w` of the spectral window, within
+//! the search range, each refitted with all other signals free and its period held near
+//! the alias.
 //!
 //! The simulation test: for each candidate, noise-matched data (its fitted Keplerian plus
 //! Gaussian noise of variance σ² + s² at the observed times) are drawn many times; at every
@@ -25,14 +24,9 @@ use serde::Serialize;
 use super::common::{Refitter, Stream, rng};
 use super::{AuditError, PlanetValues};
 use crate::data::RvSet;
-use crate::fit::{Fit, PlanetSpec, fit};
+use crate::fit::{Fit, alias_refits};
 use crate::orbit::Orbit;
-use crate::periodogram::{sinusoid_at, window_peaks};
-
-/// Window peaks whose aliases are tested.
-const WINDOW_PEAKS: usize = 3;
-/// Weakest window peak (power |W|²) whose aliases are tested.
-const MIN_WINDOW_POWER: f64 = 0.1;
+use crate::periodogram::sinusoid_at;
 
 /// How often simulations of a candidate reproduce the observed alias pattern.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
@@ -121,70 +115,32 @@ pub fn test(refit: &Refitter, i: usize) -> Result<(AliasTest, Option<Fit>), Audi
         };
         return Ok((test, None));
     }
-    let span = refit.set.baseline_d();
-    let mut freqs: Vec<(f64, String)> = Vec::new();
-    for wp in window_peaks(refit.set, jit, refit.grid.fmax(), WINDOW_PEAKS)? {
-        if wp.power < MIN_WINDOW_POWER {
-            continue;
-        }
-        for sign in [1.0, -1.0] {
-            let fa = (f0 + sign * wp.frequency).abs();
-            let inside = fa >= refit.grid.fmin && fa <= refit.grid.fmax();
-            let distinct = std::iter::once(f0)
-                .chain(freqs.iter().map(|x| x.0))
-                .all(|g| (g - fa).abs() > 1.0 / span);
-            if inside && distinct {
-                let op = if sign > 0.0 { '+' } else { '−' };
-                let rel = if f0 + sign * wp.frequency < 0.0 {
-                    format!("f_w − f, f_w = {:.4}/d", wp.frequency)
-                } else {
-                    format!("f {op} {:.4}/d", wp.frequency)
-                };
-                freqs.push((fa, rel));
-            }
-        }
-    }
     let mut notes = Vec::new();
-    let refits: Vec<Option<(AliasCandidate, Orbit, Fit)>> = freqs
-        .par_iter()
-        .map(|(fa, rel)| {
-            let sine = sinusoid_at(&residual, jit, *fa).ok()?;
-            let mut specs = refit.specs();
-            let mut spec = PlanetSpec::from_sinusoid(&sine, &est.label);
-            spec.period_prior = Some((1.0 / fa, 1.0 / (fa * fa * span)));
-            // The claimed orbit's shape is a fair start (and spares the circular
-            // multi-start).
-            spec.ecc_vector = specs[i].ecc_vector;
-            specs[i] = spec;
-            let f = fit(refit.set, &specs, &base.options).ok()?;
-            let values = refit.values(&f, i)?;
-            let orbit = f.params.planets[i];
-            let dl = f.log_likelihood - base.log_likelihood;
-            Some((
-                AliasCandidate {
-                    relation: rel.clone(),
-                    frequency: *fa,
+    let mut candidates = vec![(claimed_candidate, base.params.planets[i])];
+    let mut fits: Vec<Option<Fit>> = vec![None];
+    for a in alias_refits(refit.set, base, i, refit.grid.fmin, refit.grid.fmax())? {
+        let values = a.fit.as_ref().and_then(|f| refit.values(f, i));
+        match (a.fit, values) {
+            (Some(f), Some(values)) => {
+                let dl = f.log_likelihood - base.log_likelihood;
+                let candidate = AliasCandidate {
+                    relation: a.relation,
+                    frequency: a.frequency,
                     values,
                     log_likelihood: f.log_likelihood,
                     delta_lnl: dl,
                     delta_bic: -2.0 * dl,
-                    observed_power: sine.power,
+                    observed_power: a.observed_power,
                     simulation: None,
-                },
-                orbit,
-                f,
-            ))
-        })
-        .collect();
-    let mut candidates = vec![(claimed_candidate, base.params.planets[i])];
-    let mut fits: Vec<Option<Fit>> = vec![None];
-    for (r, (fa, rel)) in refits.into_iter().zip(&freqs) {
-        match r {
-            Some((c, o, f)) => {
-                candidates.push((c, o));
+                };
+                candidates.push((candidate, f.params.planets[i]));
                 fits.push(Some(f));
             }
-            None => notes.push(format!("refit at {rel} ({:.5} d) failed", 1.0 / fa)),
+            _ => notes.push(format!(
+                "refit at {} ({:.5} d) failed",
+                a.relation,
+                1.0 / a.frequency
+            )),
         }
     }
     if candidates.len() > 1 {

@@ -85,6 +85,11 @@ fn posterior_values(refit: &Refitter, data: &RvSet, fit: &Fit) -> Vec<Option<Pos
     };
     let range = (1.0 / refit.grid.fmax(), 1.0 / refit.grid.fmin);
     let priors = PriorSet::defaults(data, fit, range);
+    // Aliases are the alias test's question: each variant samples its own mode.
+    let settings = &sample::SamplerSettings {
+        period_modes: false,
+        ..*settings
+    };
     let Ok(post) = sample::sample(data, fit, priors, settings, refit.n_draws(), &mut |_| {}) else {
         return vec![None; n];
     };

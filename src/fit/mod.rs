@@ -4,12 +4,14 @@
 //!
 //! Entry points: [`fit`] for a given set of planets, [`search`] to find them.
 
+mod aliases;
 mod layout;
 mod objective;
 mod optimize;
 mod search;
 mod significance;
 
+pub use aliases::{AliasRefit, alias_refits};
 pub use layout::{Layout, PlanetSpec, Role};
 pub use search::{
     Search, SearchSettings, SearchStep, SignalCount, next_label, search, search_warm,

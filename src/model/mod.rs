@@ -80,25 +80,26 @@ impl Params {
     /// terms, 1/P, the Kepler solver's table) are cached in its [`Orbit`].
     pub fn log_likelihood(&self, set: &RvSet) -> f64 {
         let mut sum = GaussianSum::default();
-        let mut planets = [0.0; CHUNK];
+        let (mut r, mut var) = ([0.0; CHUNK], [0.0; CHUNK]);
         for start in (0..set.len()).step_by(CHUNK) {
             let end = (start + CHUNK).min(set.len());
-            let curve = &mut planets[..end - start];
-            curve.fill(0.0);
+            let (r, var) = (&mut r[..end - start], &mut var[..end - start]);
+            r.fill(0.0);
             for p in &self.planets {
-                p.add_rv(&set.time_d[start..end], curve);
+                p.add_rv(&set.time_d[start..end], r);
             }
-            for (i, &planet_rv) in (start..end).zip(curve.iter()) {
+            for (j, i) in (start..end).enumerate() {
                 let t = set.time_d[i];
                 let k = set.instrument[i];
-                let r = set.rv_mps[i]
-                    - planet_rv
+                r[j] = set.rv_mps[i]
+                    - r[j]
                     - self.offsets_mps[k]
                     - self.trend_rv(t)
                     - self.regressors_rv(set, i);
                 let (sigma, s) = (set.err_mps[i], self.jitters_mps[k]);
-                sum.add(r, sigma * sigma + s * s);
+                var[j] = sigma * sigma + s * s;
             }
+            sum.add_block(r, var);
         }
         sum.total()
     }
@@ -111,45 +112,45 @@ const CHUNK: usize = 64;
 const LOG_CHUNK: usize = 16;
 
 /// Running `−1/2 Σ [r²/V + ln(2πV)]` over points with residual `r` (m/s) and variance
-/// `V` (m²/s²). `Σ ln V` is taken as the logarithm of the product of [`LOG_CHUNK`]
-/// variances at a time (one `ln` per chunk instead of one per point; a chunk whose
-/// product under- or overflows falls back to one `ln` per point), which changes the sum
-/// by a few units in the last place per chunk.
+/// `V` (m²/s²), a block of points at a time. `Σ r²/V` runs in four interleaved partial
+/// sums; `Σ ln V` is taken as the logarithm of the product of [`LOG_CHUNK`] variances at
+/// a time (one `ln` per chunk instead of one per point; a chunk whose product under- or
+/// overflows falls back to one `ln` per point). Both change the sum by a few units in
+/// the last place per chunk.
 #[derive(Default)]
 struct GaussianSum {
-    chi2: f64,
+    chi2: [f64; 4],
     ln_var: f64,
     points: usize,
-    chunk: [f64; LOG_CHUNK],
-    in_chunk: usize,
 }
 
 impl GaussianSum {
-    #[inline(always)]
-    fn add(&mut self, r: f64, var: f64) {
-        self.chi2 += r * r / var;
-        self.chunk[self.in_chunk] = var;
-        self.in_chunk += 1;
-        if self.in_chunk == LOG_CHUNK {
-            self.flush();
+    /// Adds the points with residuals `r` and variances `var` (same length).
+    #[inline]
+    fn add_block(&mut self, r: &[f64], var: &[f64]) {
+        let (rs, vs) = (r.chunks_exact(4), var.chunks_exact(4));
+        for (&x, &v) in rs.remainder().iter().zip(vs.remainder()) {
+            self.chi2[0] += x * x / v;
         }
+        for (x, v) in rs.zip(vs) {
+            for l in 0..4 {
+                self.chi2[l] += x[l] * x[l] / v[l];
+            }
+        }
+        for vars in var.chunks(LOG_CHUNK) {
+            let product: f64 = vars.iter().product();
+            self.ln_var += if product.is_normal() {
+                product.ln()
+            } else {
+                vars.iter().map(|v| v.ln()).sum()
+            };
+        }
+        self.points += r.len();
     }
 
-    fn flush(&mut self) {
-        let vars = &self.chunk[..self.in_chunk];
-        let product: f64 = vars.iter().product();
-        self.ln_var += if product.is_normal() {
-            product.ln()
-        } else {
-            vars.iter().map(|v| v.ln()).sum()
-        };
-        self.points += self.in_chunk;
-        self.in_chunk = 0;
-    }
-
-    fn total(mut self) -> f64 {
-        self.flush();
-        -0.5 * (self.chi2 + self.ln_var + self.points as f64 * std::f64::consts::TAU.ln())
+    fn total(self) -> f64 {
+        let chi2 = (self.chi2[0] + self.chi2[1]) + (self.chi2[2] + self.chi2[3]);
+        -0.5 * (chi2 + self.ln_var + self.points as f64 * std::f64::consts::TAU.ln())
     }
 }
 
@@ -171,8 +172,17 @@ pub fn log_likelihood(
     jitters: &[f64],
 ) -> f64 {
     let mut sum = GaussianSum::default();
-    for ((&r, &e), &k) in residuals.iter().zip(err).zip(instrument) {
-        sum.add(r, e * e + jitters[k] * jitters[k]);
+    let mut var = [0.0; CHUNK];
+    for (start, r) in (0..residuals.len())
+        .step_by(CHUNK)
+        .zip(residuals.chunks(CHUNK))
+    {
+        let var = &mut var[..r.len()];
+        for (j, v) in var.iter_mut().enumerate() {
+            let (e, s) = (err[start + j], jitters[instrument[start + j]]);
+            *v = e * e + s * s;
+        }
+        sum.add_block(r, var);
     }
     sum.total()
 }

@@ -29,7 +29,12 @@ fn posterior_block(p: &Posterior) -> Value {
     json!({
         "method": "affine-invariant ensemble sampler (Goodman & Weare 2010 stretch move)",
         "values": "median and 15.87/84.13 percentiles of the posterior draws",
-        "modes": "the mode of the maximum-likelihood fit only; independent ensembles started from its curvature Gaussian",
+        "mode_method": if p.modes.is_empty() {
+            "the mode of the maximum-likelihood fit only; independent ensembles started from its curvature Gaussian"
+        } else {
+            "one set of ensembles per period mode (the maximum-likelihood fit and each alias within 10 in ln L), weighted by importance-sampled evidence; values from the most probable mode"
+        },
+        "modes": p.modes,
         "n_draws": p.theta.len(),
     })
 }

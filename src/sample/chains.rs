@@ -31,6 +31,9 @@ pub struct SamplerSettings {
     pub max_steps: usize,
     /// Stretch scale a (default 2).
     pub stretch_a: f64,
+    /// Sample each alias of a period the data do not rule out as its own mode and weigh
+    /// the modes ([`super::modes`]; default true), or the maximum-likelihood mode only.
+    pub period_modes: bool,
     /// Seed of every random draw.
     pub seed: u64,
 }
@@ -45,6 +48,7 @@ impl Default for SamplerSettings {
             burn_tau_multiple: 5.0,
             max_steps: 200_000,
             stretch_a: super::ensemble::STRETCH_A,
+            period_modes: true,
             seed: 1,
         }
     }

@@ -6,19 +6,24 @@
 //! [`Posterior`] with draws, summaries and diagnostics.
 //!
 //! # Modes
-//! The stretch move does not cross between well-separated modes (period aliases). The
-//! sampler explores the mode of the maximum-likelihood fit only: it starts
-//! [`SamplerSettings::ensembles`] independent ensembles (2 by default) from draws of the
-//! fit's curvature Gaussian, and R̂ compares them. Competing period modes are not
-//! sampled; the periodogram search and its FAPs are the record of them.
+//! The stretch move does not cross between well-separated modes (period aliases), so
+//! each period mode worth keeping gets ensembles of its own ([`modes`]): the
+//! maximum-likelihood fit's mode and every alias of a planet's period whose refit is
+//! within [`modes::MODE_DELTA_LNL`] in ln L, each confined to its own period window and
+//! weighted by its evidence. The values and draws are those of the most probable mode;
+//! all modes are listed with their weights ([`Posterior::modes`]). In each mode
+//! [`SamplerSettings::ensembles`] independent ensembles (2 by default) start from draws
+//! of the mode's curvature Gaussian, and R̂ compares them.
 
 pub mod chains;
 pub mod diagnostics;
 pub mod ensemble;
+pub mod modes;
 pub mod posterior;
 pub mod prior;
 
 pub use chains::{Chains, Diagnostics, ParameterDiagnostics, Progress, SamplerSettings};
+pub use modes::{Mode, ModePlanet};
 pub use posterior::{LogPosterior, PriorEntry, PriorSet};
 pub use prior::{Prior, PriorError};
 
@@ -72,6 +77,9 @@ pub struct Posterior {
     pub epoch_bjd: f64,
     /// Warnings (e.g. priors not used).
     pub warnings: Vec<String>,
+    /// Every period mode sampled, with its weight (one entry, weight 1, when no alias
+    /// was kept; empty when period modes are switched off).
+    pub modes: Vec<Mode>,
 }
 
 /// Whether a planet's semi-amplitude is significantly away from zero in its posterior.
@@ -85,10 +93,12 @@ pub struct Detection {
 
 /// Samples the posterior of the model of `fit` on `set` with the given priors until the
 /// convergence rule of `settings` is met (or the step limit is reached: the
-/// diagnostics then say so). At most `max_draws` draws are kept.
+/// diagnostics then say so), in every period mode worth keeping when
+/// `settings.period_modes` (module docs). At most `max_draws` draws are kept per mode.
 ///
 /// # Errors
-/// [`SampleError::NoValidStart`] when no starting walker has a finite posterior.
+/// [`SampleError::NoValidStart`] when no starting walker of the maximum-likelihood mode
+/// has a finite posterior.
 pub fn sample(
     set: &RvSet,
     fit: &Fit,
@@ -97,16 +107,119 @@ pub fn sample(
     max_draws: usize,
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Posterior, SampleError> {
-    let post = LogPosterior::new(set, &fit.layout, &priors);
+    let starts = if settings.period_modes {
+        modes::starts(set, fit, &priors)
+    } else {
+        vec![modes::ModeStart {
+            planet: None,
+            relation: "maximum likelihood".into(),
+            fit: fit.clone(),
+            windows: Vec::new(),
+        }]
+    };
+    // Per mode sampled: its posterior, ln evidence with its error, and its start.
+    let mut runs: Vec<SampledMode> = Vec::new();
+    let mut warnings = Vec::new();
+    for (m, start) in starts.iter().enumerate() {
+        let mode_priors = match start.planet {
+            Some(i) => {
+                let [p, _, _, _, tc] = start.fit.layout.planet_elements(&start.fit.theta, i);
+                priors.with_conjunction_window(&start.fit.layout, i, tc, p)
+            }
+            None => priors.clone(),
+        };
+        let mode_settings = SamplerSettings {
+            seed: settings.seed.wrapping_add((m as u64) << 32),
+            ..*settings
+        };
+        let post =
+            LogPosterior::new(set, &start.fit.layout, &mode_priors).within(start.windows.clone());
+        let run = sample_mode(&start.fit, &post, &mode_settings, max_draws, progress);
+        let posterior = match run {
+            Ok(p) => p,
+            Err(e) if m == 0 => return Err(e),
+            Err(e) => {
+                warnings.push(format!("period mode {} not sampled: {e}", start.relation));
+                continue;
+            }
+        };
+        let ln_z = (starts.len() > 1)
+            .then(|| {
+                let ln_p = |psi: &[f64]| post.ln_posterior(psi);
+                modes::ln_evidence(&ln_p, &posterior.chains.positions, mode_settings.seed)
+            })
+            .flatten();
+        if starts.len() > 1 && ln_z.is_none() {
+            warnings.push(format!(
+                "the evidence of period mode {} could not be estimated: weight 0",
+                start.relation
+            ));
+        }
+        runs.push((posterior, ln_z, start));
+    }
+    let weights = if runs.len() > 1 {
+        modes::weights(&runs.iter().map(|r| r.1.map(|z| z.0)).collect::<Vec<_>>())
+    } else {
+        vec![1.0]
+    };
+    let mode_list: Vec<Mode> = runs
+        .iter()
+        .zip(&weights)
+        .map(|((p, ln_z, start), &weight)| Mode {
+            planet: start.planet.map(|i| fit.planets[i].label.clone()),
+            relation: start.relation.clone(),
+            planets: p
+                .planets
+                .iter()
+                .map(|e| ModePlanet {
+                    label: e.label.clone(),
+                    period_d: e.period_d,
+                    k_mps: e.k_mps,
+                })
+                .collect(),
+            log_likelihood: start.fit.log_likelihood,
+            ln_evidence: ln_z.map_or(f64::NAN, |z| z.0),
+            ln_evidence_err: ln_z.map_or(f64::NAN, |z| z.1),
+            weight,
+            converged: p.chains.diagnostics.converged,
+        })
+        .collect();
+    let best = (0..runs.len())
+        .max_by(|&a, &b| weights[a].total_cmp(&weights[b]).then(b.cmp(&a)))
+        .expect("the maximum-likelihood mode was sampled");
+    let (mut posterior, _, start) = runs.swap_remove(best);
+    if start.planet.is_some() {
+        warnings.push(format!(
+            "the most probable period mode ({}, weight {:.3}) is not the maximum-likelihood fit's: values are from its draws",
+            start.relation, weights[best]
+        ));
+    } else if weights[best] < 0.99 {
+        warnings.push(format!(
+            "the period is multimodal: the values are from the maximum-likelihood mode, which holds {:.3} of the posterior (see posterior.modes)",
+            weights[best]
+        ));
+    }
+    posterior.warnings.extend(warnings);
+    if settings.period_modes {
+        posterior.modes = mode_list;
+    }
+    Ok(posterior)
+}
+
+/// A sampled mode: posterior, ln evidence and its standard error, and the start.
+type SampledMode<'a> = (Posterior, Option<(f64, f64)>, &'a modes::ModeStart);
+
+/// Samples one mode: ensembles from `fit`'s curvature Gaussian on `post`.
+fn sample_mode(
+    fit: &Fit,
+    post: &LogPosterior,
+    settings: &SamplerSettings,
+    max_draws: usize,
+    progress: &mut dyn FnMut(&Progress),
+) -> Result<Posterior, SampleError> {
     let dim = fit.layout.len();
     let walkers = settings.walkers_for(dim);
-    let starts = starting_walkers(
-        fit,
-        &post,
-        settings.ensembles.max(2),
-        walkers,
-        settings.seed,
-    )?;
+    let starts = starting_walkers(fit, post, settings.ensembles.max(2), walkers, settings.seed)?;
     let ln_p = |psi: &[f64]| post.ln_posterior(psi);
     let names = post.names();
     let chains = chains::run(&ln_p, starts, settings, max_draws, progress, &names);
@@ -115,13 +228,14 @@ pub fn sample(
         layout: fit.layout.clone(),
         theta,
         chains,
-        priors: priors.clone(),
+        priors: post.priors.clone(),
         planets: Vec::new(),
         detections: Vec::new(),
         instruments: Vec::new(),
         trend: Vec::new(),
-        epoch_bjd: set.epoch_bjd,
+        epoch_bjd: post.set.epoch_bjd,
         warnings: Vec::new(),
+        modes: Vec::new(),
     };
     posterior.summarise(fit);
     Ok(posterior)

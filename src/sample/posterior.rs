@@ -190,6 +190,29 @@ impl PriorSet {
         PriorSet { entries }
     }
 
+    /// The same priors with planet `i`'s default conjunction prior moved to one period
+    /// `period_d` centred on `tc_d` (days from the reference epoch): the default prior of
+    /// a fit at another period (a period mode), of density 1/period as in every mode.
+    pub fn with_conjunction_window(
+        &self,
+        layout: &Layout,
+        i: usize,
+        tc_d: f64,
+        period_d: f64,
+    ) -> PriorSet {
+        let mut out = self.clone();
+        let j = layout.roles().iter().position(|r| *r == Role::Tc(i));
+        if let Some(e) = j
+            .and_then(|j| out.entries[j].as_mut())
+            .filter(|e| e.source == "default")
+        {
+            let c = tc_d + e.shift;
+            e.prior = Prior::uniform(c - 0.5 * period_d, c + 0.5 * period_d)
+                .expect("a positive period gives ordered bounds");
+        }
+        out
+    }
+
     /// Replaces defaults by the target file's choices. Returns warnings for priors on
     /// planets that were not fitted.
     ///
@@ -261,6 +284,8 @@ pub struct LogPosterior<'a> {
     /// Priors aligned with ψ.
     pub priors: &'a PriorSet,
     roles: Vec<Role>,
+    /// `(ψ index, lowest, highest)` of coordinates restricted to a window (a period mode).
+    windows: Vec<(usize, f64, f64)>,
 }
 
 impl<'a> LogPosterior<'a> {
@@ -271,7 +296,15 @@ impl<'a> LogPosterior<'a> {
             layout,
             priors,
             roles: layout.roles(),
+            windows: Vec::new(),
         }
+    }
+
+    /// The same posterior with coordinates restricted to windows `(ψ index, lowest,
+    /// highest)`: the density is unchanged inside and zero outside (one period mode).
+    pub fn within(mut self, windows: Vec<(usize, f64, f64)>) -> LogPosterior<'a> {
+        self.windows = windows;
+        self
     }
 
     /// Sampling name of each ψ coordinate.
@@ -338,8 +371,15 @@ impl<'a> LogPosterior<'a> {
         }
     }
 
-    /// Log-prior density of ψ, −∞ outside the priors' bounds.
+    /// Log-prior density of ψ, −∞ outside the priors' bounds and the windows.
     pub fn ln_prior(&self, psi: &[f64]) -> f64 {
+        if self
+            .windows
+            .iter()
+            .any(|&(j, lo, hi)| !(psi[j] >= lo && psi[j] <= hi))
+        {
+            return f64::NEG_INFINITY;
+        }
         let mut total = 0.0;
         for j in 0..psi.len() {
             total += self.coordinate_ln_prior(j, psi);
