@@ -440,6 +440,7 @@ fap_threshold = 0.001
 orbit = "eccentric"
 trend = 1
 draws = 20000
+sample = true
 """
     with open(os.path.join(HERE, "ostrel-12.toml"), "w", newline="\n") as fh:
         fh.write(text)

@@ -13,8 +13,8 @@ fn heft(args: &[&str]) -> std::process::Output {
         .unwrap()
 }
 
-/// The demo in `to`, with the audit switched off (these tests are about run history;
-/// the last section of the demo target is `[settings]`).
+/// The demo in `to`, with the audit and the sampler switched off (these tests are about
+/// run history; the last section of the demo target is `[settings]`).
 fn copy_demo(to: &Path) {
     let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("data-demo");
     for name in ["ostrel-12.toml", "quill.csv", "tarn.txt", "fennick.tsv"] {
@@ -22,7 +22,8 @@ fn copy_demo(to: &Path) {
     }
     let target = to.join("ostrel-12.toml");
     let mut text = std::fs::read_to_string(&target).unwrap();
-    assert!(text.contains("[settings]"));
+    assert!(text.contains("[settings]") && text.contains("sample = true"));
+    text = text.replace("sample = true", "sample = false");
     text.push_str("audit = false\n");
     std::fs::write(&target, text).unwrap();
 }
@@ -231,11 +232,7 @@ fn a_killed_run_leaves_no_complete_folder_and_earlier_runs_intact() {
 
     // A second run with sampling (minutes of work), killed after a few seconds.
     let text = std::fs::read_to_string(&target).unwrap();
-    std::fs::write(
-        &target,
-        text.replace("[settings]", "[settings]\nsample = true"),
-    )
-    .unwrap();
+    std::fs::write(&target, text.replace("sample = false", "sample = true")).unwrap();
     let mut child = Command::new(env!("CARGO_BIN_EXE_heft"))
         .args(["run", target.to_str().unwrap()])
         .stdout(std::process::Stdio::null())

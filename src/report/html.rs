@@ -291,6 +291,46 @@ fn diagnostics(s: &mut String, r: &Value) {
             "<p class=\"note\">No posterior sampling in this run: uncertainties come from the curvature of the likelihood.</p>\n",
         ),
     }
+    if let Some(modes) = r["posterior"]["modes"].as_array().filter(|m| !m.is_empty()) {
+        s.push_str("<h3>Period modes</h3>\n");
+        let rows: Vec<Value> = modes
+            .iter()
+            .map(|m| {
+                let periods: Vec<String> = m["planets"]
+                    .as_array()
+                    .into_iter()
+                    .flatten()
+                    .map(|p| {
+                        format!(
+                            "{} {} d",
+                            p["label"].as_str().unwrap_or("?"),
+                            num(&p["period_d"]["value"], 7)
+                        )
+                    })
+                    .collect();
+                serde_json::json!({
+                    "relation": m["relation"],
+                    "periods": periods.join("; "),
+                    "weight": m["weight"],
+                    "ln_evidence": m["ln_evidence"],
+                    "ln_evidence_err": m["ln_evidence_err"],
+                    "converged": m["converged"],
+                })
+            })
+            .collect();
+        object_table(
+            s,
+            &rows,
+            &[
+                ("relation", "mode"),
+                ("periods", "periods"),
+                ("weight", "weight"),
+                ("ln_evidence", "ln Z"),
+                ("ln_evidence_err", "± ln Z"),
+                ("converged", "converged"),
+            ],
+        );
+    }
     if let Some(rows) = r["priors"].as_array().filter(|p| !p.is_empty()) {
         s.push_str("<h3>Priors and constraints</h3>\n");
         object_table(

@@ -155,6 +155,23 @@ pub fn summary_text(a: &Analysis) -> String {
             "sampler: {} ensembles × {} walkers, {} steps ({} burn-in), acceptance {:.2}, min ESS {:.0}; {}",
             d.ensembles, d.walkers, d.steps, d.burn_in_steps, d.acceptance, d.min_ess, d.reason
         );
+        if p.modes.len() > 1 {
+            s.push_str("period modes (weight, periods):\n");
+            for m in &p.modes {
+                let periods: Vec<String> = m
+                    .planets
+                    .iter()
+                    .map(|q| format!("{} {:.6} d", q.label, q.period_d.value))
+                    .collect();
+                let _ = writeln!(
+                    s,
+                    "  {:.3}  {}  ({})",
+                    m.weight,
+                    periods.join(", "),
+                    m.relation
+                );
+            }
+        }
     }
     if let Some(audit) = &a.audit {
         s.push_str(&audit_text(audit));
