@@ -8,7 +8,7 @@
 //! regressors. `(e cos ω, e sin ω)` is smooth through e = 0, where ω is undefined.
 
 use crate::data::RvSet;
-use crate::model::Params;
+use crate::model::{Noise, Params};
 use crate::orbit::Orbit;
 use crate::periodogram::Sinusoid;
 use crate::target::OrbitShape;
@@ -66,6 +66,8 @@ pub struct Layout {
     pub shared_jitter: bool,
     /// Number of indicator regressors (the first this many indicator columns of the data).
     pub regressors: usize,
+    /// Distribution of the residuals.
+    pub noise: Noise,
     /// Index in θ of each planet's first parameter.
     planet_start: Vec<usize>,
     /// Index of the first offset.
@@ -117,6 +119,7 @@ impl Layout {
             trend,
             shared_jitter: false,
             regressors: 0,
+            noise: Noise::Gaussian,
             planet_start,
             offsets_start: at,
         }
@@ -137,6 +140,11 @@ impl Layout {
             regressors: n,
             ..self
         }
+    }
+
+    /// The same layout with residuals distributed as `noise`.
+    pub fn with_noise(self, noise: Noise) -> Layout {
+        Layout { noise, ..self }
     }
 
     /// Number of jitter parameters.
@@ -246,6 +254,7 @@ impl Layout {
             jitters_mps,
             trend,
             regressors: self.regressor_coefficients(theta).to_vec(),
+            noise: self.noise,
         })
     }
 

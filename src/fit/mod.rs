@@ -24,7 +24,7 @@ use rand_distr::StandardNormal;
 use serde::Serialize;
 
 use crate::data::RvSet;
-use crate::model::Params;
+use crate::model::{Noise, Params};
 use crate::orbit::periastron_from_conjunction;
 use crate::summary::{Summary, wrap_pi};
 use crate::target::OrbitShape;
@@ -72,6 +72,8 @@ pub struct FitOptions {
     /// A linear term in each of the first this many indicator columns of the data
     /// (default 0).
     pub regressors: usize,
+    /// Distribution of the residuals (default Gaussian).
+    pub noise: Noise,
 }
 
 impl Default for FitOptions {
@@ -82,6 +84,7 @@ impl Default for FitOptions {
             max_ecc: 0.95,
             shared_jitter: false,
             regressors: 0,
+            noise: Noise::Gaussian,
         }
     }
 }
@@ -271,7 +274,8 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         set.n_instruments(),
         options.trend,
     )
-    .with_regressors(options.regressors);
+    .with_regressors(options.regressors)
+    .with_noise(options.noise);
     if options.shared_jitter {
         layout = layout.with_shared_jitter();
     }

@@ -65,7 +65,8 @@ impl Objective<'_> {
             .iter()
             .map(|o| set.time_d.iter().map(|&t| o.rv(t)).collect())
             .collect();
-        // ∂f/∂m_i = −r_i/V_i, and ∂f/∂s_k = Σ s (1/V − r²/V²) over instrument k.
+        // ∂f/∂m_i = −∂f/∂r_i, and ∂f/∂s_k = Σ 2s ∂f/∂V over instrument k (for Gaussian
+        // noise −r_i/V_i and Σ s (1/V − r²/V²)).
         let mut dfdm = vec![0.0; n];
         let mut dfds = vec![0.0; set.n_instruments()];
         for i in 0..n {
@@ -78,8 +79,9 @@ impl Objective<'_> {
             let r = set.rv_mps[i] - model;
             let s = params.jitters_mps[k];
             let v = set.err_mps[i] * set.err_mps[i] + s * s;
-            dfdm[i] = -r / v;
-            dfds[k] += 1.0 / v - r * r / (v * v);
+            let (df_dr, df_dv2) = layout.noise.gradient_terms(r, v);
+            dfdm[i] = -df_dr;
+            dfds[k] += df_dv2;
         }
         for (j, role) in layout.roles().into_iter().enumerate() {
             grad[j] = match role {

@@ -1,8 +1,58 @@
 //! The full RV model: planets + one offset and one jitter per instrument + a polynomial
-//! trend + optional linear terms in activity indicators, and its Gaussian log-likelihood. Pure functions of [`Params`] and the data.
+//! trend + optional linear terms in activity indicators, and its log-likelihood (Gaussian,
+//! or Student-t for data with outliers, see [`Noise`]). Pure functions of [`Params`] and
+//! the data.
+
+use statrs::function::gamma::ln_gamma;
 
 use crate::data::RvSet;
 use crate::orbit::Orbit;
+
+/// Distribution of one residual `r` (m/s) given its variance `V = σ² + s²` (m²/s²).
+#[derive(Clone, Copy, Debug, Default, PartialEq, serde::Serialize)]
+#[serde(tag = "kind", rename_all = "kebab-case")]
+pub enum Noise {
+    /// Normal with variance `V`.
+    #[default]
+    Gaussian,
+    /// Student-t with `dof` degrees of freedom and scale `√V`, whose heavy tails let a few
+    /// outliers pull the fit far less than under a normal (Lange, Little & Taylor 1989,
+    /// JASA 84, 881): `ln p = lnΓ((ν+1)/2) − lnΓ(ν/2) − ½ ln(νπV) − (ν+1)/2 ln(1 + r²/(νV))`.
+    StudentT {
+        /// Degrees of freedom ν (> 0).
+        dof: f64,
+    },
+}
+
+impl Noise {
+    /// `ln p(r | V)` for residual `r` (m/s) and variance `var` (m²/s²).
+    pub fn ln_density(self, r: f64, var: f64) -> f64 {
+        match self {
+            Noise::Gaussian => -0.5 * (r * r / var + (std::f64::consts::TAU * var).ln()),
+            Noise::StudentT { dof } => {
+                ln_gamma(0.5 * (dof + 1.0))
+                    - ln_gamma(0.5 * dof)
+                    - 0.5 * (dof * std::f64::consts::PI * var).ln()
+                    - 0.5 * (dof + 1.0) * (r * r / (dof * var)).ln_1p()
+            }
+        }
+    }
+
+    /// Derivatives of `f = −ln p(r | V)`: `(∂f/∂r, 2 ∂f/∂V)` in 1/(m/s) and 1/(m²/s²).
+    #[inline]
+    pub fn gradient_terms(self, r: f64, var: f64) -> (f64, f64) {
+        match self {
+            Noise::Gaussian => (r / var, 1.0 / var - r * r / (var * var)),
+            Noise::StudentT { dof } => {
+                let d = dof * var + r * r;
+                (
+                    (dof + 1.0) * r / d,
+                    1.0 / var - (dof + 1.0) * r * r / (var * d),
+                )
+            }
+        }
+    }
+}
 
 /// Days per Julian year, the time unit of trend coefficients.
 pub const DAYS_PER_YEAR: f64 = 365.25;
@@ -22,6 +72,8 @@ pub struct Params {
     /// Coefficient of each of the data's first indicator columns, m/s per indicator unit
     /// (a missing value contributes 0). Empty for none.
     pub regressors: Vec<f64>,
+    /// Distribution of the residuals.
+    pub noise: Noise,
 }
 
 impl Params {
@@ -73,21 +125,37 @@ impl Params {
             .collect()
     }
 
-    /// Gaussian log-likelihood of `set` under these parameters (see [`log_likelihood`]).
+    /// Residual (m/s) and variance `σ² + s²` (m²/s²) of point `i` of `set`.
+    #[inline(always)]
+    fn residual_and_variance(&self, set: &RvSet, i: usize) -> (f64, f64) {
+        let t = set.time_d[i];
+        let k = set.instrument[i];
+        let r = set.rv_mps[i]
+            - self.planets_rv(t)
+            - self.offsets_mps[k]
+            - self.trend_rv(t)
+            - self.regressors_rv(set, i);
+        let (sigma, s) = (set.err_mps[i], self.jitters_mps[k]);
+        (r, sigma * sigma + s * s)
+    }
+
+    /// Log-likelihood of `set` under these parameters: for Gaussian noise as
+    /// [`log_likelihood`], for Student-t noise the sum of [`Noise::ln_density`].
     /// Allocates nothing; each planet's constants (ω terms, 1/P, the Kepler solver's
     /// table) are cached in its [`Orbit`].
     pub fn log_likelihood(&self, set: &RvSet) -> f64 {
+        if let Noise::StudentT { .. } = self.noise {
+            return (0..set.len())
+                .map(|i| {
+                    let (r, var) = self.residual_and_variance(set, i);
+                    self.noise.ln_density(r, var)
+                })
+                .sum();
+        }
         let mut sum = GaussianSum::default();
         for i in 0..set.len() {
-            let t = set.time_d[i];
-            let k = set.instrument[i];
-            let r = set.rv_mps[i]
-                - self.planets_rv(t)
-                - self.offsets_mps[k]
-                - self.trend_rv(t)
-                - self.regressors_rv(set, i);
-            let (sigma, s) = (set.err_mps[i], self.jitters_mps[k]);
-            sum.add(r, sigma * sigma + s * s);
+            let (r, var) = self.residual_and_variance(set, i);
+            sum.add(r, var);
         }
         sum.total()
     }
@@ -143,8 +211,7 @@ impl GaussianSum {
 /// `-1/2 [r²/(σ² + s²) + ln(2π(σ² + s²))]` (for scoring single points, e.g. held-out
 /// ones; sums over a data set go through [`log_likelihood`]).
 pub fn point_log_likelihood(r: f64, sigma: f64, s: f64) -> f64 {
-    let var = sigma * sigma + s * s;
-    -0.5 * (r * r / var + (std::f64::consts::TAU * var).ln())
+    Noise::Gaussian.ln_density(r, sigma * sigma + s * s)
 }
 
 /// Gaussian log-likelihood with per-instrument jitter,
@@ -207,6 +274,31 @@ mod tests {
         }
     }
 
+    /// Student-t with ν = 1 is the Cauchy density `1/(π γ (1 + r²/γ²))` (definition of
+    /// the Cauchy distribution), and with ν → ∞ it tends to the normal density
+    /// (textbook limit); its gradient terms against central differences of `ln_density`.
+    #[test]
+    fn student_t_limits_and_gradient() {
+        for (r, var) in [(0.0, 1.0), (1.0, 1.0), (3.0, 4.0), (-7.5f64, 2.25f64)] {
+            let gamma = var.sqrt();
+            let cauchy = -(std::f64::consts::PI * gamma * (1.0 + r * r / var)).ln();
+            let got = Noise::StudentT { dof: 1.0 }.ln_density(r, var);
+            assert!((got - cauchy).abs() < 1e-12, "{got} vs {cauchy}");
+            let wide = Noise::StudentT { dof: 1e7 }.ln_density(r, var);
+            let normal = Noise::Gaussian.ln_density(r, var);
+            assert!((wide - normal).abs() < 1e-4, "{wide} vs {normal}");
+            for noise in [Noise::Gaussian, Noise::StudentT { dof: 3.0 }] {
+                let h = 1e-5;
+                let f = |r: f64, v: f64| -noise.ln_density(r, v);
+                let dr = (f(r + h, var) - f(r - h, var)) / (2.0 * h);
+                let dv = (f(r, var + h) - f(r, var - h)) / (2.0 * h);
+                let (gr, gv) = noise.gradient_terms(r, var);
+                assert!((gr - dr).abs() < 1e-6, "{noise:?}: {gr} vs {dr}");
+                assert!((gv - 2.0 * dv).abs() < 1e-6, "{noise:?}: {gv} vs {}", 2.0 * dv);
+            }
+        }
+    }
+
     #[test]
     fn trend_polynomial_in_years() {
         let p = Params {
@@ -215,6 +307,7 @@ mod tests {
             jitters_mps: vec![0.0],
             trend: vec![2.0, 0.5],
             regressors: vec![],
+            noise: Noise::Gaussian,
         };
         let t = 2.0 * DAYS_PER_YEAR;
         assert!((p.trend_rv(t) - (2.0 * 2.0 + 0.5 * 4.0)).abs() < 1e-12);
