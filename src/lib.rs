@@ -27,6 +27,7 @@ pub mod fit;
 pub mod model;
 pub mod orbit;
 pub mod periodogram;
+pub mod prep;
 pub mod pipeline;
 pub mod report;
 pub mod runs;
