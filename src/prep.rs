@@ -9,7 +9,8 @@
 
 use serde::Serialize;
 
-use crate::data::{Indicator, Origin, RvSet};
+use crate::data::{Indicator, Origin, RvSet, median};
+use crate::fit::{InstrumentEstimate, PlanetEstimate};
 use crate::model::Params;
 
 /// Median absolute deviation of a normal sample divided by its standard deviation's
@@ -120,10 +121,24 @@ pub struct Binning {
     pub n_after: usize,
     /// Every bin of more than one point.
     pub bins: Vec<Bin>,
+    /// The same model fitted to the unbinned points, when asked for.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub unbinned_fit: Option<Comparison>,
+}
+
+/// A fit of the same model to other data, side by side with the run's own.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Comparison {
+    /// Points fitted.
+    pub n_points: usize,
+    /// Planets (maximum likelihood, curvature errors).
+    pub planets: Vec<PlanetEstimate>,
+    /// Instruments.
+    pub instruments: Vec<InstrumentEstimate>,
 }
 
 /// How outliers are treated.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum OutlierMode {
     /// Flag against the fit, leave out, refit, until none is flagged.
@@ -133,6 +148,27 @@ pub enum OutlierMode {
     StudentT,
     /// Flag and keep under the Gaussian likelihood.
     Keep,
+}
+
+/// How outliers are looked for and treated.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct OutlierPolicy {
+    /// Treatment.
+    pub mode: OutlierMode,
+    /// Flag above this many robust standard deviations (default 5).
+    pub threshold_sigma: f64,
+    /// Degrees of freedom of the Student-t likelihood (default 4).
+    pub dof: f64,
+}
+
+impl Default for OutlierPolicy {
+    fn default() -> Self {
+        OutlierPolicy {
+            mode: OutlierMode::Clip,
+            threshold_sigma: 5.0,
+            dof: 4.0,
+        }
+    }
 }
 
 /// The outlier step.
@@ -165,7 +201,8 @@ pub struct DataLog {
     pub binning: Option<Binning>,
     /// Outlier settings and rounds (the points are in [`DataLog::outliers`]).
     pub outlier_search: OutlierLog,
-    /// Every point flagged as an outlier.
+    /// Every point flagged as an outlier (in results.json at the top level, `outliers`).
+    #[serde(skip)]
     pub outliers: Vec<Flagged>,
     /// The points read but not fitted (in-transit and clipped), for `data_used.csv`.
     #[serde(skip)]
@@ -173,6 +210,15 @@ pub struct DataLog {
 }
 
 impl DataLog {
+    /// The log of `n_read` points read and not changed yet.
+    pub fn new(n_read: usize) -> DataLog {
+        DataLog {
+            n_read,
+            n_fitted: n_read,
+            ..DataLog::default()
+        }
+    }
+
     /// The fitted points with the clipped outliers put back (for the audit's Student-t
     /// comparison); `None` when nothing was clipped.
     pub fn before_clipping(&self, fitted: &RvSet) -> Option<RvSet> {
@@ -253,10 +299,7 @@ fn split_off(set: &RvSet, drop: &[bool]) -> (RvSet, RvSet) {
 /// [`PrepError`] for an era of an unknown instrument, an era without points, or no point
 /// left to fit.
 pub fn prepare(set: &RvSet, prep: &Preparation) -> Result<(RvSet, DataLog), PrepError> {
-    let mut log = DataLog {
-        n_read: set.len(),
-        ..DataLog::default()
-    };
+    let mut log = DataLog::new(set.len());
     let mut set = split_eras(set, &prep.eras, &mut log)?;
     let drop: Vec<bool> = (0..set.len())
         .map(|i| {
@@ -418,6 +461,7 @@ pub fn bin(set: &RvSet, window_d: f64) -> (RvSet, Binning) {
         n_before: set.len(),
         n_after: out.len(),
         bins,
+        unbinned_fit: None,
     };
     (out, binning)
 }
@@ -441,17 +485,6 @@ pub fn flag_outliers(set: &RvSet, params: &Params, threshold: f64) -> Vec<(usize
         .map(|(i, x)| (i, (x - med) / scale))
         .filter(|(_, s)| s.abs() > threshold)
         .collect()
-}
-
-/// Median of `v` (NaN for an empty slice).
-fn median(v: &[f64]) -> f64 {
-    let mut s = v.to_vec();
-    s.sort_by(f64::total_cmp);
-    match s.len() {
-        0 => f64::NAN,
-        n if n % 2 == 1 => s[n / 2],
-        n => 0.5 * (s[n / 2 - 1] + s[n / 2]),
-    }
 }
 
 /// Records the points `flags` of `set` (from [`flag_outliers`]) in `log`; when `clip`,

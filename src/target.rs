@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 use serde::Deserialize;
 
 use crate::data::{DataSpec, RvUnit, TimeStandard};
+use crate::prep::{Era, OutlierMode, OutlierPolicy, Preparation, TransitWindow};
 use crate::sample::Prior;
 
 /// Everything a run needs to know about one star.
@@ -26,6 +27,8 @@ pub struct Target {
     pub settings: Settings,
     /// Priors chosen in the target file (the rest keep their defaults).
     pub priors: PriorChoices,
+    /// Instruments whose hardware changed, split into eras.
+    pub eras: Vec<Era>,
 }
 
 /// Priors set in the target file's `[priors]` table, by planet label and instrument name.
@@ -208,6 +211,20 @@ pub struct Settings {
     /// Start `heft run` from the latest complete run's solution (default false: every run
     /// starts afresh, so identical inputs give identical results).
     pub warm_start: bool,
+    /// Outliers: `clip` (default), `student-t` or `keep`.
+    pub outliers: OutlierMode,
+    /// A point is an outlier beyond this many robust standard deviations (default 5).
+    pub outlier_threshold: f64,
+    /// Degrees of freedom of the Student-t likelihood (default 4).
+    pub student_t_dof: f64,
+    /// Leave points taken in transit out of the fit (default true; needs each transit's
+    /// `duration_h`).
+    pub exclude_in_transit: bool,
+    /// Combine the points of an instrument within this many days, e.g. 0.5 for a night
+    /// (default: no binning).
+    pub bin_window_d: Option<f64>,
+    /// With binning, also fit the unbinned points and report both (default false).
+    pub bin_compare: bool,
 }
 
 impl Default for Settings {
@@ -235,6 +252,12 @@ impl Default for Settings {
             audit: true,
             audit_posterior: false,
             warm_start: false,
+            outliers: OutlierMode::Clip,
+            outlier_threshold: OutlierPolicy::default().threshold_sigma,
+            student_t_dof: OutlierPolicy::default().dof,
+            exclude_in_transit: true,
+            bin_window_d: None,
+            bin_compare: false,
         }
     }
 }
@@ -250,6 +273,39 @@ impl Settings {
             max_steps: self.max_steps,
             seed: self.seed,
             ..crate::sample::SamplerSettings::default()
+        }
+    }
+
+    /// The outlier policy these choose.
+    pub fn outlier_policy(&self) -> OutlierPolicy {
+        OutlierPolicy {
+            mode: self.outliers,
+            threshold_sigma: self.outlier_threshold,
+            dof: self.student_t_dof,
+        }
+    }
+}
+
+impl Target {
+    /// The data preparation this target asks for: its eras, the transit windows of the
+    /// transits with a duration, and the binning settings.
+    pub fn preparation(&self) -> Preparation {
+        Preparation {
+            eras: self.eras.clone(),
+            windows: self
+                .transits
+                .iter()
+                .filter_map(|t| {
+                    t.duration_h.map(|(h, _)| TransitWindow {
+                        label: t.label.clone(),
+                        period_d: t.period_d,
+                        tc_bjd: t.tc_bjd,
+                        duration_d: h / 24.0,
+                    })
+                })
+                .collect(),
+            exclude_in_transit: self.settings.exclude_in_transit,
+            bin_window_d: self.settings.bin_window_d,
         }
     }
 }
@@ -297,6 +353,18 @@ struct RawTarget {
     settings: Settings,
     #[serde(default)]
     priors: RawPriors,
+    #[serde(default)]
+    era: Vec<RawEra>,
+}
+
+/// An `[[era]]` table: `instrument`, `split_bjd` (a list of full BJD_TDB times) and
+/// optional `names` (default `<instrument>-1`, `<instrument>-2`, …).
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawEra {
+    instrument: String,
+    split_bjd: Vec<f64>,
+    names: Option<Vec<String>>,
 }
 
 #[derive(Deserialize, Default)]
@@ -706,6 +774,60 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         ));
     }
 
+    if !(s.outlier_threshold.is_finite() && s.outlier_threshold > 0.0) {
+        return Err(invalid(
+            "settings.outlier_threshold",
+            format!("must be a positive number, got {}", s.outlier_threshold),
+        ));
+    }
+    positive("settings.student_t_dof", s.student_t_dof)?;
+    if let Some(w) = s.bin_window_d {
+        positive("settings.bin_window_d", w)?;
+    }
+    if s.bin_compare && s.bin_window_d.is_none() {
+        return Err(invalid(
+            "settings.bin_compare",
+            "needs settings.bin_window_d".into(),
+        ));
+    }
+    let mut eras = Vec::new();
+    for (i, e) in raw.era.into_iter().enumerate() {
+        let key = |k: &str| format!("era[{i}].{k}");
+        if e.split_bjd.is_empty()
+            || e.split_bjd.iter().any(|t| !(t.is_finite() && *t > 2_000_000.0))
+            || e.split_bjd.windows(2).any(|w| w[1] <= w[0])
+        {
+            return Err(invalid(
+                &key("split_bjd"),
+                format!(
+                    "needs increasing full BJD_TDB times (above 2000000), got {:?}",
+                    e.split_bjd
+                ),
+            ));
+        }
+        let names = e.names.unwrap_or_else(|| {
+            (1..=e.split_bjd.len() + 1)
+                .map(|n| format!("{}-{n}", e.instrument))
+                .collect()
+        });
+        if names.len() != e.split_bjd.len() + 1 {
+            return Err(invalid(
+                &key("names"),
+                format!(
+                    "{} split times make {} eras, but {} names are given",
+                    e.split_bjd.len(),
+                    e.split_bjd.len() + 1,
+                    names.len()
+                ),
+            ));
+        }
+        eras.push(Era {
+            instrument: e.instrument,
+            splits_bjd: e.split_bjd,
+            names,
+        });
+    }
+
     let priors = prior_choices(raw.priors, &invalid)?;
     Ok(Target {
         name: raw.name,
@@ -715,5 +837,6 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         transits,
         settings: raw.settings,
         priors,
+        eras,
     })
 }

@@ -10,6 +10,7 @@ use std::path::Path;
 use heft::data::RvSet;
 use heft::fit::{FitOptions, SearchSettings, SignalCount};
 use heft::orbit::Orbit;
+use heft::prep::{DataLog, OutlierPolicy};
 use heft::pipeline::{self, Request};
 use heft::sample::chains::{self, SamplerSettings};
 use heft::target::{OrbitShape, Star};
@@ -201,6 +202,8 @@ fn request<'a>(inj: &'a Injected, sampler: SamplerSettings) -> Request<'a> {
         sampler: Some(sampler),
         priors: Default::default(),
         warm: Vec::new(),
+        outliers: OutlierPolicy::default(),
+        log: DataLog::new(inj.set.len()),
     }
 }
 

@@ -23,7 +23,7 @@ use rand::Rng;
 use rand_distr::StandardNormal;
 use serde::Serialize;
 
-use crate::data::RvSet;
+use crate::data::{RvSet, median};
 use crate::model::{Noise, Params};
 use crate::orbit::periastron_from_conjunction;
 use crate::summary::{Summary, wrap_pi};
@@ -115,6 +115,12 @@ pub struct InstrumentEstimate {
     pub name: String,
     /// Number of points.
     pub n_points: usize,
+    /// Time of the first and of the last point, full BJD_TDB.
+    pub first_last_bjd: (f64, f64),
+    /// Time span of its points, days.
+    pub span_d: f64,
+    /// Median of its points' errors, m/s.
+    pub median_err_mps: f64,
     /// Zero point, m/s.
     pub offset_mps: Summary,
     /// Jitter, m/s.
@@ -474,10 +480,14 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let residuals = params.residuals(set);
     let instruments = (0..set.n_instruments())
         .map(|k| {
-            let r: Vec<f64> = (0..set.len())
+            let mine: Vec<usize> = (0..set.len())
                 .filter(|&i| set.instrument[i] == k)
-                .map(|i| residuals[i])
                 .collect();
+            let r: Vec<f64> = mine.iter().map(|&i| residuals[i]).collect();
+            let errs: Vec<f64> = mine.iter().map(|&i| set.err_mps[i]).collect();
+            let times = mine.first().zip(mine.last()).map_or((0.0, 0.0), |(&a, &b)| {
+                (set.time_d[a] + epoch, set.time_d[b] + epoch)
+            });
             let jo = layout
                 .index(Role::Offset(k))
                 .expect("offsets are always free");
@@ -487,6 +497,9 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
             InstrumentEstimate {
                 name: set.instruments[k].clone(),
                 n_points: r.len(),
+                first_last_bjd: times,
+                span_d: times.1 - times.0,
+                median_err_mps: median(&errs),
                 offset_mps: at(jo),
                 jitter_mps: Summary::symmetric(
                     theta[js].abs(),

@@ -146,6 +146,7 @@ pub fn results_json(a: &Analysis) -> Value {
         "draws": a.draws,
         "epoch_bjd": a.set.epoch_bjd,
         "data": {
+            "n_read": a.data_log.n_read,
             "n_points": a.set.len(),
             "baseline_d": a.set.baseline_d(),
             "files": a.set.files.iter().map(|f| f.display().to_string()).collect::<Vec<_>>(),
@@ -158,6 +159,8 @@ pub fn results_json(a: &Analysis) -> Value {
         "search": search,
         "system": a.system,
         "priors": a.priors,
+        "data_changes": a.data_log,
+        "outliers": a.data_log.outliers,
         "warnings": warnings,
     });
     if let (Some(p), Value::Object(map)) = (post, &mut doc) {
