@@ -348,7 +348,10 @@ fn split_eras(set: &RvSet, eras: &[Era], log: &mut DataLog) -> Result<RvSet, Pre
         }
         map.push((first..names.len()).collect());
     }
-    if let Some(e) = eras.iter().find(|e| !set.instruments.contains(&e.instrument)) {
+    if let Some(e) = eras
+        .iter()
+        .find(|e| !set.instruments.contains(&e.instrument))
+    {
         return Err(PrepError::UnknownInstrument {
             name: e.instrument.clone(),
             have: set.instruments.join(", "),

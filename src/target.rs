@@ -794,7 +794,9 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
     for (i, e) in raw.era.into_iter().enumerate() {
         let key = |k: &str| format!("era[{i}].{k}");
         if e.split_bjd.is_empty()
-            || e.split_bjd.iter().any(|t| !(t.is_finite() && *t > 2_000_000.0))
+            || e.split_bjd
+                .iter()
+                .any(|t| !(t.is_finite() && *t > 2_000_000.0))
             || e.split_bjd.windows(2).any(|w| w[1] <= w[0])
         {
             return Err(invalid(

@@ -15,8 +15,8 @@
 use heft::audit::{self, Audit, AuditSettings, Context, Verdict};
 use heft::data::RvSet;
 use heft::fit::{FitOptions, SearchSettings, SignalCount};
-use heft::prep::{DataLog, OutlierPolicy};
 use heft::pipeline::{self, Analysis, Request};
+use heft::prep::{DataLog, OutlierPolicy};
 use heft::target::{OrbitShape, Settings, Star};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;

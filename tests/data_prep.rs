@@ -6,11 +6,12 @@
 //!
 //! Run with `--nocapture` to see the recovered values.
 
+use heft::audit::{self, AuditSettings, Context};
 use heft::data::RvSet;
 use heft::fit::{self, Fit, FitOptions, PlanetSpec, SearchSettings, SignalCount};
 use heft::pipeline::{self, Analysis, Request};
 use heft::prep::{self, DataLog, Era, OutlierMode, OutlierPolicy, Preparation, TransitWindow};
-use heft::target::OrbitShape;
+use heft::target::{OrbitShape, Star};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::StandardNormal;
@@ -138,16 +139,49 @@ fn injected_outliers_are_found_and_k_recovered() {
     let rows: Vec<usize> = clipped.data_log.outliers.iter().map(|o| o.row).collect();
     for &i in &hit {
         let row = dirty.origin[i].row;
-        assert!(rows.contains(&row), "injected outlier at row {row} not flagged");
+        assert!(
+            rows.contains(&row),
+            "injected outlier at row {row} not flagged"
+        );
     }
     assert!(rows.len() <= hit.len() + 1, "flagged {rows:?}");
     assert!(clipped.data_log.outliers.iter().all(|o| o.excluded));
     assert_eq!(clipped.set.len() + rows.len(), dirty.len());
     assert!((k1 - k0).abs() < s0, "clipped K {k1} vs clean {k0} ± {s0}");
-    assert!((k2 - k0).abs() < s2, "Student-t K {k2} ± {s2} vs clean {k0}");
+    assert!(
+        (k2 - k0).abs() < s2,
+        "Student-t K {k2} ± {s2} vs clean {k0}"
+    );
     // Student-t keeps every point and lists the flagged ones as kept.
     assert_eq!(robust.set.len(), dirty.len());
     assert!(robust.data_log.outliers.iter().all(|o| !o.excluded));
+
+    // The audit of the clipped fit compares it with the Student-t fit of every point.
+    let star = Star::from_mass(0.9, 0.03);
+    let labels = vec!["b".to_string()];
+    let ctx = Context {
+        star: Some(&star),
+        transits: &[],
+        labels: &labels,
+    };
+    let settings = AuditSettings {
+        seed: 3,
+        simulations: 20,
+        jackknife_epochs: 3,
+        cv_folds: 3,
+        injections: 10,
+        mass_draws: 200,
+        ..AuditSettings::default()
+    };
+    let result = audit::audit(&clipped, &ctx, &settings).unwrap();
+    let variant = result.planets[0]
+        .variants
+        .iter()
+        .find(|v| v.name.starts_with("Student-t likelihood") && v.name.contains("kept"))
+        .expect("Student-t variant in the audit");
+    let shift = variant.k_shift_sigma.unwrap();
+    println!("audit: {} K shift {shift:.2} σ", variant.name);
+    assert!(shift.abs() < 1.0 && !variant.competitive);
 }
 
 /// Three points a night for 50 nights: binned within 0.5 d, each bin's error is σ/√3
@@ -177,7 +211,10 @@ fn binned_and_unbinned_fits_agree() {
     let ((ku, su), (kb, sb)) = (k_of(&all), k_of(&few));
     println!("K unbinned {ku:.3} ± {su:.3}; binned {kb:.3} ± {sb:.3}");
     assert!((kb - ku).abs() < su, "binned {kb} vs unbinned {ku} ± {su}");
-    assert!((ku - k).abs() < 3.0 * su, "unbinned {ku} ± {su} vs truth {k}");
+    assert!(
+        (ku - k).abs() < 3.0 * su,
+        "unbinned {ku} ± {su} vs truth {k}"
+    );
 }
 
 /// A +15 m/s jump in the zero point of one instrument at day 300: split into eras at that
@@ -217,8 +254,13 @@ fn an_offset_jump_is_absorbed_by_eras_and_biases_k_when_ignored() {
         .offset_mps
         .plus
         .hypot(eras.instruments[1].offset_mps.plus);
-    println!("K with eras {ke:.3} ± {se:.3} (jump {step:.2} ± {step_err:.2}); ignored {ki:.3} ± {si:.3}");
-    assert!((step - jump).abs() < 3.0 * step_err, "jump {step} ± {step_err}");
+    println!(
+        "K with eras {ke:.3} ± {se:.3} (jump {step:.2} ± {step_err:.2}); ignored {ki:.3} ± {si:.3}"
+    );
+    assert!(
+        (step - jump).abs() < 3.0 * step_err,
+        "jump {step} ± {step_err}"
+    );
     assert!((ke - k).abs() < 2.0 * se, "K with eras {ke} ± {se}");
     assert!((ki - k).abs() > 3.0 * se, "ignored: K {ki} not biased");
 }
@@ -259,7 +301,11 @@ fn in_transit_points_are_excluded_and_k_unbiased() {
         bin_window_d: None,
     };
     let (out, log) = prep::prepare(&set, &prep(true)).unwrap();
-    assert!(log.in_transit.len() >= 75, "{} flagged", log.in_transit.len());
+    assert!(
+        log.in_transit.len() >= 75,
+        "{} flagged",
+        log.in_transit.len()
+    );
     assert_eq!(out.len() + log.in_transit.len(), set.len());
     let (all, kept_log) = prep::prepare(&set, &prep(false)).unwrap();
     assert_eq!(all.len(), set.len());

@@ -150,7 +150,11 @@ fn demo_report_holds_every_figure_and_rebuilds() {
     let used = read(&run_dir.join("data_used.csv"));
     let n_read = doc["data"]["n_read"].as_u64().unwrap() as usize;
     assert_eq!(used.lines().count(), n_read + 1);
-    let status_used = used.lines().skip(1).filter(|l| l.contains(",used,")).count();
+    let status_used = used
+        .lines()
+        .skip(1)
+        .filter(|l| l.contains(",used,"))
+        .count();
     assert_eq!(status_used, n_points);
     for line in used.lines().skip(1) {
         let f: Vec<f64> = line

@@ -480,14 +480,15 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let residuals = params.residuals(set);
     let instruments = (0..set.n_instruments())
         .map(|k| {
-            let mine: Vec<usize> = (0..set.len())
-                .filter(|&i| set.instrument[i] == k)
-                .collect();
+            let mine: Vec<usize> = (0..set.len()).filter(|&i| set.instrument[i] == k).collect();
             let r: Vec<f64> = mine.iter().map(|&i| residuals[i]).collect();
             let errs: Vec<f64> = mine.iter().map(|&i| set.err_mps[i]).collect();
-            let times = mine.first().zip(mine.last()).map_or((0.0, 0.0), |(&a, &b)| {
-                (set.time_d[a] + epoch, set.time_d[b] + epoch)
-            });
+            let times = mine
+                .first()
+                .zip(mine.last())
+                .map_or((0.0, 0.0), |(&a, &b)| {
+                    (set.time_d[a] + epoch, set.time_d[b] + epoch)
+                });
             let jo = layout
                 .index(Role::Offset(k))
                 .expect("offsets are always free");

@@ -294,7 +294,11 @@ mod tests {
                 let dv = (f(r, var + h) - f(r, var - h)) / (2.0 * h);
                 let (gr, gv) = noise.gradient_terms(r, var);
                 assert!((gr - dr).abs() < 1e-6, "{noise:?}: {gr} vs {dr}");
-                assert!((gv - 2.0 * dv).abs() < 1e-6, "{noise:?}: {gv} vs {}", 2.0 * dv);
+                assert!(
+                    (gv - 2.0 * dv).abs() < 1e-6,
+                    "{noise:?}: {gv} vs {}",
+                    2.0 * dv
+                );
             }
         }
     }

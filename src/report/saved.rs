@@ -58,7 +58,8 @@ pub fn points_csv(a: &Analysis) -> String {
         })
     };
     let mut rows: Vec<(f64, String)> = Vec::new();
-    let parts = std::iter::once((&a.set, "used")).chain(a.data_log.left_out.iter().map(|(s, w)| (s, *w)));
+    let parts =
+        std::iter::once((&a.set, "used")).chain(a.data_log.left_out.iter().map(|(s, w)| (s, *w)));
     for (set, status) in parts {
         let model = params.predict(set);
         for (i, m) in model.iter().enumerate() {
@@ -68,7 +69,11 @@ pub fn points_csv(a: &Analysis) -> String {
                     .map_or(String::new(), |n| n.to_string_lossy().into_owned())
             });
             let t = set.time_d[i];
-            let n = if status == "used" { combined(&file, o.row) } else { 1 };
+            let n = if status == "used" {
+                combined(&file, o.row)
+            } else {
+                1
+            };
             let mut line = format!(
                 "{},{},{},{:.8},{},{},{},{},{status},{n}",
                 file.replace([',', '"', '\n'], " "),

@@ -227,7 +227,10 @@ fn data_changes_text(a: &Analysis) -> String {
     let action = match o.mode {
         crate::prep::OutlierMode::Clip => "left out".to_string(),
         crate::prep::OutlierMode::StudentT => {
-            format!("kept, Student-t likelihood with ν = {}", o.dof.unwrap_or(f64::NAN))
+            format!(
+                "kept, Student-t likelihood with ν = {}",
+                o.dof.unwrap_or(f64::NAN)
+            )
         }
         crate::prep::OutlierMode::Keep => "kept".to_string(),
     };
