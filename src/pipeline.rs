@@ -327,6 +327,9 @@ pub fn run_target_from(
     let raw = data::load(&target.data)?;
     let preparation = target.preparation();
     let (set, log) = prep::prepare(&raw, &preparation)?;
+    prep::check_offset_priors(&set, &target.offset_priors)?;
+    let mut search = search_settings(&target.settings);
+    search.options.offset_priors = target.offset_priors.clone();
     let request = Request {
         name: target.name.clone(),
         set,
@@ -334,7 +337,7 @@ pub fn run_target_from(
         transits: &target.transits,
         periods: Vec::new(),
         fix_periods: false,
-        search: search_settings(&target.settings),
+        search,
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),
@@ -424,6 +427,17 @@ pub fn analyse(
             kind: "bound",
             detail: format!("0 <= e <= {}", req.search.options.max_ecc),
             source: "default",
+        });
+    }
+    for p in &req.search.options.offset_priors {
+        priors.push(Prior {
+            parameter: format!(
+                "offset_mps.{} - offset_mps.{}",
+                p.instruments[1], p.instruments[0]
+            ),
+            kind: "gaussian",
+            detail: format!("{} ± {} m/s", p.mean_mps, p.sd_mps),
+            source: "target file",
         });
     }
     for t in req.transits {
@@ -599,7 +613,7 @@ fn search_with_outliers(
         dof: (policy.mode == OutlierMode::StudentT).then_some(policy.dof),
         rounds: 0,
     };
-    let mut settings = req.search;
+    let mut settings = req.search.clone();
     if policy.mode == OutlierMode::StudentT {
         settings.options.noise = Noise::StudentT { dof: policy.dof };
     }

@@ -10,7 +10,7 @@
 use serde::Serialize;
 
 use crate::data::{Indicator, Origin, RvSet, median};
-use crate::fit::{InstrumentEstimate, PlanetEstimate};
+use crate::fit::{InstrumentEstimate, OffsetPrior, PlanetEstimate};
 use crate::model::Params;
 
 /// Median absolute deviation of a normal sample divided by its standard deviation's
@@ -235,9 +235,11 @@ pub const IN_TRANSIT: &str = "in-transit";
 /// Why the preparation could not be done.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum PrepError {
-    /// An era names an instrument the data do not have.
-    #[error("era: instrument '{name}' is not in the data (instruments: {have})")]
+    /// An era or offset constraint names an instrument the data do not have.
+    #[error("{key}: instrument '{name}' is not in the data (instruments: {have})")]
     UnknownInstrument {
+        /// The target-file table, e.g. `era`.
+        key: &'static str,
         /// The name given.
         name: String,
         /// The data's instruments.
@@ -285,6 +287,25 @@ fn concat(a: &RvSet, b: &RvSet) -> RvSet {
     let mut order: Vec<usize> = (0..all.len()).collect();
     order.sort_by(|&i, &j| all.time_d[i].total_cmp(&all.time_d[j]));
     all.select(&order)
+}
+
+/// Checks that every instrument an offset constraint names is in `set` (after the eras).
+///
+/// # Errors
+/// [`PrepError::UnknownInstrument`] for the first one that is not.
+pub fn check_offset_priors(set: &RvSet, priors: &[OffsetPrior]) -> Result<(), PrepError> {
+    let unknown = priors
+        .iter()
+        .flat_map(|p| p.instruments.iter())
+        .find(|n| !set.instruments.contains(n));
+    match unknown {
+        Some(name) => Err(PrepError::UnknownInstrument {
+            key: "offset_prior",
+            name: name.clone(),
+            have: set.instruments.join(", "),
+        }),
+        None => Ok(()),
+    }
 }
 
 /// Splits `set` into the points at `drop` and the rest.
@@ -353,6 +374,7 @@ fn split_eras(set: &RvSet, eras: &[Era], log: &mut DataLog) -> Result<RvSet, Pre
         .find(|e| !set.instruments.contains(&e.instrument))
     {
         return Err(PrepError::UnknownInstrument {
+            key: "era",
             name: e.instrument.clone(),
             have: set.instruments.join(", "),
         });

@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 use serde::Deserialize;
 
 use crate::data::{DataSpec, RvUnit, TimeStandard};
+use crate::fit::OffsetPrior;
 use crate::prep::{Era, OutlierMode, OutlierPolicy, Preparation, TransitWindow};
 use crate::sample::Prior;
 
@@ -29,6 +30,8 @@ pub struct Target {
     pub priors: PriorChoices,
     /// Instruments whose hardware changed, split into eras.
     pub eras: Vec<Era>,
+    /// Known offsets between instruments or eras (e.g. from standard stars).
+    pub offset_priors: Vec<OffsetPrior>,
 }
 
 /// Priors set in the target file's `[priors]` table, by planet label and instrument name.
@@ -355,6 +358,17 @@ struct RawTarget {
     priors: RawPriors,
     #[serde(default)]
     era: Vec<RawEra>,
+    #[serde(default)]
+    offset_prior: Vec<RawOffsetPrior>,
+}
+
+/// An `[[offset_prior]]` table: `instruments = [earlier, later]` and
+/// `gaussian = [mean, sd]` of `offset(later) − offset(earlier)`, m/s.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawOffsetPrior {
+    instruments: [String; 2],
+    gaussian: [f64; 2],
 }
 
 /// An `[[era]]` table: `instrument`, `split_bjd` (a list of full BJD_TDB times) and
@@ -830,6 +844,30 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         });
     }
 
+    let mut offset_priors = Vec::new();
+    for (i, p) in raw.offset_prior.into_iter().enumerate() {
+        let key = |k: &str| format!("offset_prior[{i}].{k}");
+        let [mean, sd] = p.gaussian;
+        if !mean.is_finite() {
+            return Err(invalid(
+                &key("gaussian"),
+                format!("mean {mean} is not finite"),
+            ));
+        }
+        positive(&key("gaussian"), sd)?;
+        if p.instruments[0] == p.instruments[1] {
+            return Err(invalid(
+                &key("instruments"),
+                format!("names the same instrument twice ('{}')", p.instruments[0]),
+            ));
+        }
+        offset_priors.push(OffsetPrior {
+            instruments: p.instruments,
+            mean_mps: mean,
+            sd_mps: sd,
+        });
+    }
+
     let priors = prior_choices(raw.priors, &invalid)?;
     Ok(Target {
         name: raw.name,
@@ -840,5 +878,6 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         settings: raw.settings,
         priors,
         eras,
+        offset_priors,
     })
 }

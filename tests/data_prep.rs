@@ -8,7 +8,7 @@
 
 use heft::audit::{self, AuditSettings, Context};
 use heft::data::RvSet;
-use heft::fit::{self, Fit, FitOptions, PlanetSpec, SearchSettings, SignalCount};
+use heft::fit::{self, Fit, FitOptions, OffsetPrior, PlanetSpec, SearchSettings, SignalCount};
 use heft::pipeline::{self, Analysis, Request};
 use heft::prep::{self, DataLog, Era, OutlierMode, OutlierPolicy, Preparation, TransitWindow};
 use heft::target::{OrbitShape, Star};
@@ -263,6 +263,29 @@ fn an_offset_jump_is_absorbed_by_eras_and_biases_k_when_ignored() {
     );
     assert!((ke - k).abs() < 2.0 * se, "K with eras {ke} ± {se}");
     assert!((ki - k).abs() > 3.0 * se, "ignored: K {ki} not biased");
+
+    // Known from standard stars to 0.1 m/s, the offset between the eras is held there.
+    let known = FitOptions {
+        offset_priors: vec![OffsetPrior {
+            instruments: ["loom-old".into(), "loom-new".into()],
+            mean_mps: 15.0,
+            sd_mps: 0.1,
+        }],
+        ..options(1)
+    };
+    let pinned = fit::fit(&split, &planets, &known).unwrap();
+    let step = pinned.params.offsets_mps[1] - pinned.params.offsets_mps[0];
+    assert_eq!(
+        pinned.names[3..5],
+        ["offset_mps.loom-old", "offset_mps.loom-new"]
+    );
+    let c = &pinned.covariance;
+    let sd = c[(3, 3)] + c[(4, 4)] - 2.0 * c[(3, 4)];
+    println!(
+        "offset step with a 15 ± 0.1 m/s prior: {step:.3} ± {:.3}",
+        sd.sqrt()
+    );
+    assert!((step - 15.0).abs() < 0.1 && sd.sqrt() < 0.1);
 }
 
 /// Five transit nights of 15 points each with a Rossiter–McLaughlin-like anomaly of

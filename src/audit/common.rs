@@ -103,7 +103,7 @@ impl<'a> Refitter<'a> {
 
     /// Model options of the baseline.
     pub fn options(&self) -> FitOptions {
-        self.base.options
+        self.base.options.clone()
     }
 
     /// Planet specs starting at the baseline optimum.

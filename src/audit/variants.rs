@@ -155,7 +155,7 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
     let set = refit.set;
     let mut jobs: Vec<(String, RvSet, Vec<PlanetSpec>, FitOptions)> = Vec::new();
     let with = |f: &dyn Fn(&mut FitOptions)| {
-        let mut o = opts;
+        let mut o = opts.clone();
         f(&mut o);
         o
     };
@@ -189,7 +189,12 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
     for (j, s) in specs.iter().enumerate() {
         let mut fewer = specs.clone();
         fewer.remove(j);
-        jobs.push((format!("without {}", s.label), set.clone(), fewer, opts));
+        jobs.push((
+            format!("without {}", s.label),
+            set.clone(),
+            fewer,
+            opts.clone(),
+        ));
     }
     if !set.indicators.is_empty() && opts.regressors == 0 {
         let names: Vec<&str> = set.indicators.iter().map(|i| i.name.as_str()).collect();
@@ -225,7 +230,7 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
             format!("with a rotation signal ({p_rot} d)"),
             set.clone(),
             extra,
-            opts,
+            opts.clone(),
         ));
     }
     for (inner, outer) in near_two_to_one(&specs) {

@@ -51,6 +51,18 @@ impl PlanetSpec {
     }
 }
 
+/// A Gaussian constraint on the difference of two instruments' offsets (e.g. known from
+/// standard stars): `offset[later] − offset[earlier] ~ N(mean, sd²)`, m/s.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct OffsetPrior {
+    /// Instrument (or era) names `[earlier, later]`.
+    pub instruments: [String; 2],
+    /// Mean of the difference, m/s.
+    pub mean_mps: f64,
+    /// Its standard deviation, m/s (> 0).
+    pub sd_mps: f64,
+}
+
 /// Position and kind of every free parameter.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Layout {
@@ -68,6 +80,8 @@ pub struct Layout {
     pub regressors: usize,
     /// Distribution of the residuals.
     pub noise: Noise,
+    /// Offset constraints `(earlier, later, mean, sd)`: instrument indices, m/s.
+    pub offset_priors: Vec<(usize, usize, f64, f64)>,
     /// Index in θ of each planet's first parameter.
     planet_start: Vec<usize>,
     /// Index of the first offset.
@@ -120,6 +134,7 @@ impl Layout {
             shared_jitter: false,
             regressors: 0,
             noise: Noise::Gaussian,
+            offset_priors: Vec::new(),
             planet_start,
             offsets_start: at,
         }
@@ -145,6 +160,45 @@ impl Layout {
     /// The same layout with residuals distributed as `noise`.
     pub fn with_noise(self, noise: Noise) -> Layout {
         Layout { noise, ..self }
+    }
+
+    /// The same layout with offset constraints between instruments of `names`; constraints
+    /// naming an instrument not in `names` are left out (e.g. when a subset of the data
+    /// lacks one).
+    pub fn with_offset_priors(self, priors: &[OffsetPrior], names: &[String]) -> Layout {
+        let index = |n: &String| names.iter().position(|x| x == n);
+        let offset_priors = priors
+            .iter()
+            .filter_map(|p| {
+                Some((
+                    index(&p.instruments[0])?,
+                    index(&p.instruments[1])?,
+                    p.mean_mps,
+                    p.sd_mps,
+                ))
+            })
+            .collect();
+        Layout {
+            offset_priors,
+            ..self
+        }
+    }
+
+    /// `−ln` of the offset constraints at θ (up to a constant) and its gradient, added to
+    /// `grad` when given.
+    pub fn offset_penalty(&self, theta: &[f64], grad: Option<&mut [f64]>) -> f64 {
+        let o = self.offsets_start;
+        let mut total = 0.0;
+        let mut g = grad;
+        for &(a, b, mean, sd) in &self.offset_priors {
+            let z = (theta[o + b] - theta[o + a] - mean) / sd;
+            total += 0.5 * z * z;
+            if let Some(g) = g.as_deref_mut() {
+                g[o + b] += z / sd;
+                g[o + a] -= z / sd;
+            }
+        }
+        total
     }
 
     /// Number of jitter parameters.

@@ -10,7 +10,7 @@ mod optimize;
 mod search;
 mod significance;
 
-pub use layout::{Layout, PlanetSpec, Role};
+pub use layout::{Layout, OffsetPrior, PlanetSpec, Role};
 pub use search::{
     Search, SearchSettings, SearchStep, SignalCount, next_label, search, search_warm,
 };
@@ -59,7 +59,7 @@ pub enum FitError {
 pub const FRESH_STARTS: usize = 4;
 
 /// Model options of a fit.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct FitOptions {
     /// Orbit shape of every planet.
     pub shape: OrbitShape,
@@ -74,6 +74,8 @@ pub struct FitOptions {
     pub regressors: usize,
     /// Distribution of the residuals (default Gaussian).
     pub noise: Noise,
+    /// Gaussian constraints on differences of instrument offsets (default none).
+    pub offset_priors: Vec<OffsetPrior>,
 }
 
 impl Default for FitOptions {
@@ -85,6 +87,7 @@ impl Default for FitOptions {
             shared_jitter: false,
             regressors: 0,
             noise: Noise::Gaussian,
+            offset_priors: Vec::new(),
         }
     }
 }
@@ -281,7 +284,8 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         options.trend,
     )
     .with_regressors(options.regressors)
-    .with_noise(options.noise);
+    .with_noise(options.noise)
+    .with_offset_priors(&options.offset_priors, &set.instruments);
     if options.shared_jitter {
         layout = layout.with_shared_jitter();
     }
@@ -542,7 +546,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
         instruments,
         trend,
         regressors,
-        options: *options,
+        options: options.clone(),
         warnings,
         starts: 1,
     }

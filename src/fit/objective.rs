@@ -31,7 +31,7 @@ impl Objective<'_> {
 
     /// The minimised function; +∞ for invalid θ.
     pub fn value(&self, theta: &[f64]) -> f64 {
-        let mut total = self.neg_log_likelihood(theta);
+        let mut total = self.neg_log_likelihood(theta) + self.layout.offset_penalty(theta, None);
         for (i, spec) in self.layout.planets.iter().enumerate() {
             let [p, _, ec, es, tc] = self.layout.planet_elements(theta, i);
             let excess = ec.hypot(es) - self.max_ecc;
@@ -140,6 +140,7 @@ impl Objective<'_> {
                 grad[j] += (tc - mean) / (sd * sd);
             }
         }
+        layout.offset_penalty(theta, Some(&mut grad));
         grad
     }
 }
@@ -225,28 +226,41 @@ mod tests {
             tc_prior: Some((1.2, 0.5)),
             label: label.into(),
         };
-        let layout = Layout::new(
+        let base = Layout::new(
             vec![spec(32.0, "b"), spec(11.0, "c")],
             OrbitShape::Eccentric,
             2,
             2,
         );
-        let theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
-        let obj = Objective {
-            set: &set,
-            layout: &layout,
-            max_ecc: 0.95,
+        let constraint = crate::fit::OffsetPrior {
+            instruments: ["a".into(), "b".into()],
+            mean_mps: 0.4,
+            sd_mps: 0.3,
         };
-        let scale = layout.scales(&set);
-        let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
-        let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
-        let g = obj.gradient(&theta, &fwd);
-        let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
-        for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
-            assert!(
-                (a - b).abs() <= 1e-4 * b.abs().max(1.0),
-                "θ[{j}]: {a} vs {b}"
-            );
+        // Gaussian, then Student-t residuals with an offset constraint.
+        let robust = base
+            .clone()
+            .with_noise(crate::model::Noise::StudentT { dof: 3.5 })
+            .with_offset_priors(&[constraint], &set.instruments);
+        for layout in [base, robust] {
+            let theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
+            let obj = Objective {
+                set: &set,
+                layout: &layout,
+                max_ecc: 0.95,
+            };
+            let scale = layout.scales(&set);
+            let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
+            let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
+            let g = obj.gradient(&theta, &fwd);
+            let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
+            for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
+                assert!(
+                    (a - b).abs() <= 1e-4 * b.abs().max(1.0),
+                    "{:?} θ[{j}]: {a} vs {b}",
+                    layout.noise
+                );
+            }
         }
     }
 

@@ -340,7 +340,11 @@ impl<'a> LogPosterior<'a> {
 
     /// Log-prior density of ψ, −∞ outside the priors' bounds.
     pub fn ln_prior(&self, psi: &[f64]) -> f64 {
-        let mut total = 0.0;
+        let mut total = if self.layout.offset_priors.is_empty() {
+            0.0
+        } else {
+            -self.layout.offset_penalty(&self.to_theta(psi), None)
+        };
         for j in 0..psi.len() {
             total += self.coordinate_ln_prior(j, psi);
             if total == f64::NEG_INFINITY {
