@@ -547,3 +547,91 @@ fn quiet_and_verbose_modes() {
     let both = heft(&["-q", "-v", "periodogram", &data]);
     assert_eq!(both.status.code(), Some(2));
 }
+
+/// `--outliers` (design.md): with the default `clip` a point moved by 200 m/s is listed
+/// under `outliers` with `file`, `row`, `time_d` and `residual_sigma` and left out; with
+/// `keep` it is listed and kept; `student-t` keeps every point under that likelihood.
+#[test]
+fn fit_outliers_are_listed() {
+    let dir = tempfile::tempdir().unwrap();
+    let text = std::fs::read_to_string(repo("tests/reference/twobody/one_planet.csv")).unwrap();
+    let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
+    let n = lines.len() - 1;
+    // Line 10 of the file (header = line 1).
+    let f: Vec<String> = lines[9].split(',').map(str::to_string).collect();
+    let moved = f[1].parse::<f64>().unwrap() + 200.0;
+    lines[9] = format!("{},{moved},{}", f[0], f[2]);
+    let file = write(dir.path(), "moved.csv", &(lines.join("\n") + "\n"));
+    let fit = |mode: &str| {
+        json_of(&heft(&[
+            "fit",
+            &file.display().to_string(),
+            "--period",
+            "12.3047",
+            "--planets",
+            "1",
+            "--outliers",
+            mode,
+            "--json",
+        ]))
+    };
+    for (mode, fitted, excluded) in [
+        ("clip", n - 1, true),
+        ("keep", n, false),
+        ("student-t", n, false),
+    ] {
+        let doc = fit(mode);
+        let outliers = doc["outliers"].as_array().unwrap();
+        assert_eq!(outliers.len(), 1, "{mode}: {outliers:?}");
+        let o = &outliers[0];
+        assert_eq!(o["file"], "moved.csv");
+        assert_eq!(o["row"], 10);
+        assert_eq!(o["time_d"].as_f64().unwrap(), f[0].parse::<f64>().unwrap());
+        assert!(o["residual_sigma"].as_f64().unwrap() > 5.0, "{mode}: {o}");
+        assert_eq!(o["excluded"], excluded);
+        assert_eq!(doc["data"]["n_points"], fitted, "{mode}");
+        assert_eq!(doc["data"]["n_read"], n);
+        assert_eq!(doc["data_changes"]["outlier_search"]["mode"], mode);
+    }
+}
+
+/// Target-file data settings that do not fit the data: exit 2 naming the file and key.
+#[test]
+fn bad_data_settings_exit_2() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("tests/reference/twobody/one_planet.csv");
+    let target = |extra: &str| {
+        format!(
+            "name = \"Invented\"\n[star]\nmass_msun = 1.0\n[[data]]\nfile = \"{data}\"\n{extra}"
+        )
+    };
+    let cases = [
+        (
+            "[[era]]\ninstrument = \"nope\"\nsplit_bjd = [2459700.5]\n",
+            "era: instrument 'nope' is not in the data (instruments: one_planet)",
+        ),
+        (
+            "[[era]]\ninstrument = \"one_planet\"\nsplit_bjd = [2459700.5]\nnames = [\"x\"]\n",
+            "era[0].names: 1 split times make 2 eras, but 1 names are given",
+        ),
+        (
+            "[[offset_prior]]\ninstruments = [\"one_planet\", \"other\"]\ngaussian = [3.0, 1.0]\n",
+            "offset_prior: instrument 'other' is not in the data",
+        ),
+        (
+            "[settings]\nbin_window_d = -1.0\n",
+            "settings.bin_window_d: must be a positive number",
+        ),
+    ];
+    for (i, (extra, message)) in cases.iter().enumerate() {
+        let path = write(dir.path(), &format!("t{i}.toml"), &target(extra));
+        let out = heft(&[
+            "run",
+            &path.display().to_string(),
+            "--out",
+            &dir.path().join(format!("r{i}")).display().to_string(),
+        ]);
+        assert_eq!(out.status.code(), Some(2), "{extra}: {}", stderr(&out));
+        assert!(stderr(&out).contains(message), "{extra}: {}", stderr(&out));
+    }
+}

@@ -403,8 +403,7 @@ mod tests {
     #[test]
     fn correlations_match_scipy() {
         let doc: serde_json::Value =
-            serde_json::from_str(include_str!("../../tests/reference/correlations.json"))
-                .unwrap();
+            serde_json::from_str(include_str!("../../tests/reference/correlations.json")).unwrap();
         for set in doc["sets"].as_array().unwrap() {
             let col = |k: &str| -> Vec<f64> {
                 set[k]
@@ -420,7 +419,10 @@ mod tests {
             let (_, rho, p_rho) = spearman(&x, &y).unwrap();
             let name = set["name"].as_str().unwrap();
             assert!((r - num("pearson_r")).abs() < 1e-12, "{name}: r {r}");
-            assert!((rho - num("spearman_rho")).abs() < 1e-12, "{name}: rho {rho}");
+            assert!(
+                (rho - num("spearman_rho")).abs() < 1e-12,
+                "{name}: rho {rho}"
+            );
             for (got, want) in [(p, num("pearson_p")), (p_rho, num("spearman_p"))] {
                 assert!(
                     (got - want).abs() <= 1e-9 * want.max(1e-300) + 1e-15,
