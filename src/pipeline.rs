@@ -23,7 +23,7 @@ use crate::periodogram::{self, Overview, OverviewSettings, PeriodogramError};
 use crate::prep::{self, DataLog, OutlierMode, OutlierPolicy, PrepError};
 use crate::sample::{self, Posterior, PriorSet, Progress, SampleError, SamplerSettings};
 use crate::summary::Summary;
-use crate::target::{PriorChoices, Settings, Star, Target, Transit};
+use crate::target::{IndicatorTerms, PriorChoices, Settings, Star, Target, Transit};
 
 /// Why an analysis stopped.
 #[derive(Debug, thiserror::Error)]
@@ -330,6 +330,11 @@ pub fn run_target_from(
     prep::check_offset_priors(&set, &target.offset_priors)?;
     let mut search = search_settings(&target.settings);
     search.options.offset_priors = target.offset_priors.clone();
+    if target.settings.indicator_terms != IndicatorTerms::None {
+        search.options.regressors = set.indicators.len();
+        search.options.regressors_per_instrument =
+            target.settings.indicator_terms == IndicatorTerms::PerInstrument;
+    }
     let request = Request {
         name: target.name.clone(),
         set,

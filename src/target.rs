@@ -228,6 +228,23 @@ pub struct Settings {
     pub bin_window_d: Option<f64>,
     /// With binning, also fit the unbinned points and report both (default false).
     pub bin_compare: bool,
+    /// Linear terms in every indicator column of the data: `none` (default), `shared`
+    /// (one coefficient per indicator) or `per-instrument` (one per indicator and
+    /// instrument).
+    pub indicator_terms: IndicatorTerms,
+}
+
+/// Linear decorrelation terms in the activity indicators.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Deserialize, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum IndicatorTerms {
+    /// No indicator terms.
+    #[default]
+    None,
+    /// One coefficient per indicator for all instruments.
+    Shared,
+    /// One coefficient per indicator and instrument.
+    PerInstrument,
 }
 
 impl Default for Settings {
@@ -261,6 +278,7 @@ impl Default for Settings {
             exclude_in_transit: true,
             bin_window_d: None,
             bin_compare: false,
+            indicator_terms: IndicatorTerms::None,
         }
     }
 }

@@ -72,6 +72,9 @@ pub struct FitOptions {
     /// A linear term in each of the first this many indicator columns of the data
     /// (default 0).
     pub regressors: usize,
+    /// One coefficient per indicator and instrument instead of one per indicator
+    /// (default false).
+    pub regressors_per_instrument: bool,
     /// Distribution of the residuals (default Gaussian).
     pub noise: Noise,
     /// Gaussian constraints on differences of instrument offsets (default none).
@@ -86,6 +89,7 @@ impl Default for FitOptions {
             max_ecc: 0.95,
             shared_jitter: false,
             regressors: 0,
+            regressors_per_instrument: false,
             noise: Noise::Gaussian,
             offset_priors: Vec::new(),
         }
@@ -284,6 +288,7 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         options.trend,
     )
     .with_regressors(options.regressors)
+    .with_regressors_per_instrument(options.regressors_per_instrument)
     .with_noise(options.noise)
     .with_offset_priors(&options.offset_priors, &set.instruments);
     if options.shared_jitter {
@@ -517,7 +522,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let trend = (1..=layout.trend)
         .map(|k| at(layout.index(Role::Trend(k)).expect("trend terms are free")))
         .collect();
-    let regressors = (0..layout.regressors)
+    let regressors = (0..layout.n_regressors())
         .map(|c| {
             at(layout
                 .index(Role::Regressor(c))

@@ -99,12 +99,16 @@ impl Objective<'_> {
                 Role::Trend(p) => (0..n)
                     .map(|i| dfdm[i] * (set.time_d[i] / DAYS_PER_YEAR).powi(p as i32))
                     .sum(),
-                Role::Regressor(c) => (0..n)
-                    .map(|i| {
-                        let x = set.indicators[c].values[i];
-                        if x.is_finite() { dfdm[i] * x } else { 0.0 }
-                    })
-                    .sum(),
+                Role::Regressor(r) => {
+                    let (c, only) = layout.regressor_target(r);
+                    (0..n)
+                        .filter(|&i| only.is_none_or(|k| set.instrument[i] == k))
+                        .map(|i| {
+                            let x = set.indicators[c].values[i];
+                            if x.is_finite() { dfdm[i] * x } else { 0.0 }
+                        })
+                        .sum()
+                }
                 _ => 0.0,
             };
         }
@@ -215,7 +219,19 @@ mod tests {
             .collect();
         let err: Vec<f64> = (0..n).map(|i| 1.0 + 0.1 * (i % 4) as f64).collect();
         let inst: Vec<usize> = (0..n).map(|i| i % 2).collect();
-        let set = RvSet::from_columns("g", 0.0, t, rv, err, inst, vec!["a".into(), "b".into()]);
+        let mut set = RvSet::from_columns("g", 0.0, t, rv, err, inst, vec!["a".into(), "b".into()]);
+        set.indicators.push(crate::data::Indicator {
+            name: "width".into(),
+            values: (0..n)
+                .map(|i| {
+                    if i % 9 == 4 {
+                        f64::NAN
+                    } else {
+                        (i as f64 * 0.7).cos()
+                    }
+                })
+                .collect(),
+        });
         let spec = |p: f64, label: &str| PlanetSpec {
             period_d: p,
             fix_period: false,
@@ -237,13 +253,20 @@ mod tests {
             mean_mps: 0.4,
             sd_mps: 0.3,
         };
-        // Gaussian, then Student-t residuals with an offset constraint.
+        // Gaussian, then Student-t residuals with an offset constraint and an indicator
+        // term per instrument.
         let robust = base
             .clone()
             .with_noise(crate::model::Noise::StudentT { dof: 3.5 })
-            .with_offset_priors(&[constraint], &set.instruments);
+            .with_offset_priors(&[constraint], &set.instruments)
+            .with_regressors(1)
+            .with_regressors_per_instrument(true);
         for layout in [base, robust] {
-            let theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
+            let mut theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
+            let m = theta.len();
+            if layout.n_regressors() == 2 {
+                theta[m - 2..].copy_from_slice(&[0.8, -1.3]);
+            }
             let obj = Objective {
                 set: &set,
                 layout: &layout,

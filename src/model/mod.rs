@@ -69,9 +69,13 @@ pub struct Params {
     /// Trend coefficients: `trend[k-1]` multiplies `(t / 1 yr)^k`, in m/s/yr^k, with `t`
     /// counted from the reference epoch. Empty for no trend.
     pub trend: Vec<f64>,
-    /// Coefficient of each of the data's first indicator columns, m/s per indicator unit
-    /// (a missing value contributes 0). Empty for none.
+    /// Coefficients of the data's first indicator columns, m/s per indicator unit (a
+    /// missing value contributes 0): one per column, or with
+    /// [`Params::regressors_per_instrument`] one per column and instrument (column-major:
+    /// `[c * n_instruments + k]`). Empty for none.
     pub regressors: Vec<f64>,
+    /// One indicator coefficient per instrument instead of one for all.
+    pub regressors_per_instrument: bool,
     /// Distribution of the residuals.
     pub noise: Noise,
 }
@@ -93,12 +97,17 @@ impl Params {
     /// Indicator terms of point `i` of `set`, m/s.
     #[inline]
     pub fn regressors_rv(&self, set: &RvSet, i: usize) -> f64 {
+        let (stride, k) = if self.regressors_per_instrument {
+            (self.offsets_mps.len(), set.instrument[i])
+        } else {
+            (1, 0)
+        };
         self.regressors
-            .iter()
+            .chunks(stride)
             .zip(&set.indicators)
             .map(|(c, ind)| {
                 let x = ind.values[i];
-                if x.is_finite() { c * x } else { 0.0 }
+                if x.is_finite() { c[k] * x } else { 0.0 }
             })
             .sum()
     }
@@ -311,6 +320,7 @@ mod tests {
             jitters_mps: vec![0.0],
             trend: vec![2.0, 0.5],
             regressors: vec![],
+            regressors_per_instrument: false,
             noise: Noise::Gaussian,
         };
         let t = 2.0 * DAYS_PER_YEAR;

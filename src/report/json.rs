@@ -130,6 +130,15 @@ pub fn results_json(a: &Analysis) -> Value {
             })
         })
         .collect();
+    let indicator_terms: Vec<Value> = fit
+        .regressors
+        .iter()
+        .enumerate()
+        .filter_map(|(j, s)| {
+            let at = fit.layout.index(crate::fit::Role::Regressor(j))?;
+            Some(json!({"parameter": fit.names[at], "coefficient": s}))
+        })
+        .collect();
     let mut warnings = a.set.warnings.clone();
     warnings.extend(fit.warnings.iter().cloned());
     if let Some(p) = post {
@@ -154,6 +163,7 @@ pub fn results_json(a: &Analysis) -> Value {
         "planets": planets,
         "instruments": post.map_or(&fit.instruments, |p| &p.instruments),
         "trend": trend,
+        "indicator_terms": indicator_terms,
         "fit": fit_block(fit),
         "model": model_block(a),
         "search": search,

@@ -91,6 +91,7 @@ impl PriorSet {
         let years = (set.baseline_d() / DAYS_PER_YEAR).max(1e-3);
         let epoch = set.epoch_bjd;
         let theta = &fit.theta;
+        let names = layout.names(set);
         let entries = layout
             .roles()
             .into_iter()
@@ -177,12 +178,10 @@ impl PriorSet {
                         let b = 10.0 * range.max(median_err) / years.powi(p as i32);
                         default(format!("trend_mps_per_yr{p}"), Prior::uniform(-b, b))
                     }
-                    Role::Regressor(c) => {
+                    Role::Regressor(r) => {
+                        let c = layout.regressor_target(r).0;
                         let b = 10.0 * range.max(median_err) / set.indicator_spread(c);
-                        default(
-                            format!("regressor.{}", set.indicators[c].name),
-                            Prior::uniform(-b, b),
-                        )
+                        default(names[j].clone(), Prior::uniform(-b, b))
                     }
                 }
             })
