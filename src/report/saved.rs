@@ -69,11 +69,8 @@ pub fn points_csv(a: &Analysis) -> String {
                     .map_or(String::new(), |n| n.to_string_lossy().into_owned())
             });
             let t = set.time_d[i];
-            let n = if status == "used" {
-                combined(&file, o.row)
-            } else {
-                1
-            };
+            // In-transit points are left out before binning, so belong to no bin.
+            let n = combined(&file, o.row);
             let mut line = format!(
                 "{},{},{},{:.8},{},{},{},{},{status},{n}",
                 file.replace([',', '"', '\n'], " "),

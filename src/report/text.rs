@@ -234,12 +234,14 @@ fn data_changes_text(a: &Analysis) -> String {
         }
         crate::prep::OutlierMode::Keep => "kept".to_string(),
     };
+    let found = match log.outliers.len() {
+        0 => "none flagged".to_string(),
+        n => format!("{n} flagged, {action}"),
+    };
     let _ = writeln!(
         s,
-        "outliers (beyond {} robust σ, {} fit(s)): {} flagged, {action}",
-        o.threshold_sigma,
-        o.rounds,
-        log.outliers.len()
+        "outliers (beyond {} robust σ, {} fit(s)): {found}",
+        o.threshold_sigma, o.rounds
     );
     for f in &log.outliers {
         let _ = writeln!(
