@@ -602,7 +602,9 @@ const MAX_CLIP_ROUNDS: usize = 5;
 
 /// The search, repeated on the data without the points flagged as outliers against the
 /// previous fit until none is flagged (mode `clip`); or once, under a Student-t
-/// likelihood (`student-t`) or the Gaussian (`keep`), with the flagged points kept.
+/// likelihood (`student-t`; its degrees of freedom, when fitted, are the value of
+/// [`prep::DOF_GRID`] with the largest likelihood, refitting the first search's planets)
+/// or the Gaussian (`keep`), with the flagged points kept.
 /// Returns the search, the points it fitted and the data log with the outlier step.
 fn search_with_outliers(
     req: &Request,
@@ -616,6 +618,7 @@ fn search_with_outliers(
         mode: policy.mode,
         threshold_sigma: policy.threshold_sigma,
         dof: (policy.mode == OutlierMode::StudentT).then_some(policy.dof),
+        dof_profile: Vec::new(),
         rounds: 0,
     };
     let mut settings = req.search.clone();
@@ -623,6 +626,23 @@ fn search_with_outliers(
         settings.options.noise = Noise::StudentT { dof: policy.dof };
     }
     let mut set = req.set.clone();
+    if policy.mode == OutlierMode::StudentT && policy.fit_dof {
+        let first = fit::search_warm(&set, known, &settings, warm)?;
+        let specs = first.fit.planet_specs();
+        let mut profile = Vec::new();
+        for dof in prep::DOF_GRID {
+            let mut options = settings.options.clone();
+            options.noise = Noise::StudentT { dof };
+            profile.push([dof, fit::fit(&set, &specs, &options)?.log_likelihood]);
+        }
+        let best = profile
+            .iter()
+            .max_by(|a, b| a[1].total_cmp(&b[1]))
+            .map_or(policy.dof, |p| p[0]);
+        settings.options.noise = Noise::StudentT { dof: best };
+        log.outlier_search.dof = Some(best);
+        log.outlier_search.dof_profile = profile;
+    }
     loop {
         let search = fit::search_warm(&set, known, &settings, warm)?;
         log.outlier_search.rounds += 1;

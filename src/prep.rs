@@ -159,7 +159,13 @@ pub struct OutlierPolicy {
     pub threshold_sigma: f64,
     /// Degrees of freedom of the Student-t likelihood (default 4).
     pub dof: f64,
+    /// Fit the degrees of freedom instead (the grid value of largest profile likelihood).
+    pub fit_dof: bool,
 }
+
+/// Degrees of freedom tried when they are fitted: from Cauchy-like tails (1) to nearly
+/// Gaussian (100).
+pub const DOF_GRID: [f64; 10] = [1.0, 1.5, 2.0, 3.0, 4.0, 6.0, 10.0, 20.0, 50.0, 100.0];
 
 impl Default for OutlierPolicy {
     fn default() -> Self {
@@ -167,6 +173,7 @@ impl Default for OutlierPolicy {
             mode: OutlierMode::Clip,
             threshold_sigma: 5.0,
             dof: 4.0,
+            fit_dof: false,
         }
     }
 }
@@ -181,6 +188,10 @@ pub struct OutlierLog {
     /// Degrees of freedom of the Student-t likelihood (mode `student-t`).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub dof: Option<f64>,
+    /// When the degrees of freedom were fitted: `[ν, ln L]` of each grid value, the planets
+    /// of the first fit held at their starting values for each refit.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub dof_profile: Vec<[f64; 2]>,
     /// Fits made (each round flags against the previous fit).
     pub rounds: usize,
 }

@@ -220,6 +220,9 @@ pub struct Settings {
     pub outlier_threshold: f64,
     /// Degrees of freedom of the Student-t likelihood (default 4).
     pub student_t_dof: f64,
+    /// Fit the Student-t degrees of freedom instead of using `student_t_dof` (default
+    /// false).
+    pub fit_student_t_dof: bool,
     /// Leave points taken in transit out of the fit (default true; needs each transit's
     /// `duration_h`).
     pub exclude_in_transit: bool,
@@ -275,6 +278,7 @@ impl Default for Settings {
             outliers: OutlierMode::Clip,
             outlier_threshold: OutlierPolicy::default().threshold_sigma,
             student_t_dof: OutlierPolicy::default().dof,
+            fit_student_t_dof: false,
             exclude_in_transit: true,
             bin_window_d: None,
             bin_compare: false,
@@ -303,6 +307,7 @@ impl Settings {
             mode: self.outliers,
             threshold_sigma: self.outlier_threshold,
             dof: self.student_t_dof,
+            fit_dof: self.fit_student_t_dof,
         }
     }
 }

@@ -74,6 +74,18 @@ fn spec(k: f64, p: f64, tc: f64, known: bool) -> PlanetSpec {
 
 /// Analyses `set` with one signal started at `period`, circular, no trend.
 fn analyse(set: RvSet, period: f64, mode: OutlierMode) -> Analysis {
+    analyse_with(
+        set,
+        period,
+        OutlierPolicy {
+            mode,
+            ..OutlierPolicy::default()
+        },
+    )
+}
+
+/// As [`analyse`] with any outlier policy.
+fn analyse_with(set: RvSet, period: f64, outliers: OutlierPolicy) -> Analysis {
     let n = set.len();
     let request = Request {
         name: "injected".into(),
@@ -96,10 +108,7 @@ fn analyse(set: RvSet, period: f64, mode: OutlierMode) -> Analysis {
         priors: Default::default(),
         profile: pipeline::profile_settings(&Default::default()),
         warm: Vec::new(),
-        outliers: OutlierPolicy {
-            mode,
-            ..OutlierPolicy::default()
-        },
+        outliers,
         log: DataLog::new(n),
     };
     pipeline::analyse(request, &mut |_| {}).unwrap()
@@ -391,4 +400,38 @@ fn indicator_terms_per_instrument() {
     );
     assert!((ka - k).abs() < 3.0 * sa);
     assert!(a.log_likelihood - b.log_likelihood > 20.0);
+}
+
+/// Fitted Student-t degrees of freedom: small for noise with Cauchy tails (a normal
+/// divided by the absolute value of another, i.e. Student-t with ν = 1: definition of the
+/// t distribution), large for Gaussian noise.
+#[test]
+fn fitted_student_t_dof_follows_the_tails() {
+    let mut rng = ChaCha8Rng::seed_from_u64(8);
+    let (k, p, tc, err) = (8.0, 7.7, 0.4, 1.0);
+    let t = times(150, 200.0, &mut rng);
+    let gaussian = simulate(&t, err, (k, p, tc), &mut rng);
+    let mut heavy = gaussian.clone();
+    for i in 0..heavy.len() {
+        let z: f64 = rng.sample(StandardNormal);
+        let w: f64 = rng.sample(StandardNormal);
+        heavy.rv_mps[i] = circular(t[i], k, p, tc) + err * z / w.abs().max(1e-3);
+    }
+    let policy = OutlierPolicy {
+        mode: OutlierMode::StudentT,
+        fit_dof: true,
+        ..OutlierPolicy::default()
+    };
+    let dof = |set: RvSet| {
+        let a = analyse_with(set, p, policy);
+        let log = &a.data_log.outlier_search;
+        assert_eq!(log.dof_profile.len(), prep::DOF_GRID.len());
+        (log.dof.unwrap(), k_of(&a.search.fit))
+    };
+    let (nu_heavy, (kh, sh)) = dof(heavy);
+    let (nu_gauss, _) = dof(gaussian);
+    println!("fitted dof: Cauchy tails {nu_heavy} (K {kh:.3} ± {sh:.3}), Gaussian {nu_gauss}");
+    assert!(nu_heavy <= 2.0, "{nu_heavy}");
+    assert!(nu_gauss >= 20.0, "{nu_gauss}");
+    assert!((kh - k).abs() < 3.0 * sh);
 }
