@@ -412,10 +412,10 @@ fn fitted_student_t_dof_follows_the_tails() {
     let t = times(150, 200.0, &mut rng);
     let gaussian = simulate(&t, err, (k, p, tc), &mut rng);
     let mut heavy = gaussian.clone();
-    for i in 0..heavy.len() {
+    for (v, &ti) in heavy.rv_mps.iter_mut().zip(&t) {
         let z: f64 = rng.sample(StandardNormal);
         let w: f64 = rng.sample(StandardNormal);
-        heavy.rv_mps[i] = circular(t[i], k, p, tc) + err * z / w.abs().max(1e-3);
+        *v = circular(ti, k, p, tc) + err * z / w.abs().max(1e-3);
     }
     let policy = OutlierPolicy {
         mode: OutlierMode::StudentT,

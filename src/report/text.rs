@@ -226,12 +226,15 @@ fn data_changes_text(a: &Analysis) -> String {
     let o = &log.outlier_search;
     let action = match o.mode {
         crate::prep::OutlierMode::Clip => "left out".to_string(),
-        crate::prep::OutlierMode::StudentT => {
-            format!(
-                "kept, Student-t likelihood with ν = {}",
-                o.dof.unwrap_or(f64::NAN)
-            )
-        }
+        crate::prep::OutlierMode::StudentT => format!(
+            "kept, Student-t likelihood with ν = {}{}",
+            o.dof.unwrap_or(f64::NAN),
+            if o.dof_profile.is_empty() {
+                ""
+            } else {
+                " (fitted)"
+            }
+        ),
         crate::prep::OutlierMode::Keep => "kept".to_string(),
     };
     let found = match log.outliers.len() {
