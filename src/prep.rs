@@ -70,7 +70,7 @@ pub struct Flagged {
     /// Its error, m/s.
     pub err_mps: f64,
     /// Outliers: normalised residual `(z − median z)/(1.4826 MAD)`, where
-    /// `z = r/√(σ² + s²)`; in-transit points: the planet whose window holds them.
+    /// `z = r/√(σ² + s²)` (absent for in-transit points).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub residual_sigma: Option<f64>,
     /// In-transit points: label of the transiting planet.
