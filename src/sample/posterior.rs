@@ -339,11 +339,8 @@ impl<'a> LogPosterior<'a> {
 
     /// Log-prior density of ψ, −∞ outside the priors' bounds.
     pub fn ln_prior(&self, psi: &[f64]) -> f64 {
-        let mut total = if self.layout.offset_priors.is_empty() {
-            0.0
-        } else {
-            -self.layout.offset_penalty(&self.to_theta(psi), None)
-        };
+        // Offsets are the same in ψ as in θ.
+        let mut total = -self.layout.offset_penalty(psi, None);
         for j in 0..psi.len() {
             total += self.coordinate_ln_prior(j, psi);
             if total == f64::NEG_INFINITY {
@@ -392,6 +389,37 @@ mod tests {
     use crate::target::OrbitShape;
     use rand::{Rng, SeedableRng};
     use rand_chacha::ChaCha8Rng;
+
+    /// An offset constraint `offset(B) − offset(A) ~ N(2, 0.5²)` adds
+    /// `−½ ((Δ − 2)/0.5)²` to the log-prior (Gaussian log-density up to a constant).
+    #[test]
+    fn offset_constraint_enters_the_prior() {
+        let set = RvSet::from_columns(
+            "p",
+            0.0,
+            vec![0.0, 1.0, 2.0, 3.0],
+            vec![0.0; 4],
+            vec![1.0; 4],
+            vec![0, 1, 0, 1],
+            vec!["A".into(), "B".into()],
+        );
+        let constraint = crate::fit::OffsetPrior {
+            instruments: ["A".into(), "B".into()],
+            mean_mps: 2.0,
+            sd_mps: 0.5,
+        };
+        let layout = Layout::new(vec![], OrbitShape::Circular, 2, 0)
+            .with_offset_priors(&[constraint], &set.instruments);
+        // ψ: offset A, offset B, ln s_A, ln s_B; no prior entries.
+        let priors = PriorSet {
+            entries: vec![None; 4],
+        };
+        let post = LogPosterior::new(&set, &layout, &priors);
+        for (b, want) in [(2.0, 0.0), (3.0, -2.0), (0.5, -4.5)] {
+            let got = post.ln_prior(&[0.0, b, 0.0, 0.0]);
+            assert!((got - want).abs() < 1e-12, "offset B {b}: {got} vs {want}");
+        }
+    }
 
     /// Sampling the prior alone must give back the physical priors: with e uniform on
     /// [0, 0.9] and the jitter uniform on [0, 5], the draws of e and s have the uniform
