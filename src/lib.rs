@@ -28,6 +28,7 @@ pub mod model;
 pub mod orbit;
 pub mod periodogram;
 pub mod pipeline;
+pub mod prep;
 pub mod report;
 pub mod runs;
 pub mod sample;

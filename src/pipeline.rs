@@ -18,10 +18,12 @@ use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, Tra
 use crate::fit::{
     self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount, SignalTest,
 };
+use crate::model::Noise;
 use crate::periodogram::{self, Overview, OverviewSettings, PeriodogramError};
+use crate::prep::{self, DataLog, OutlierMode, OutlierPolicy, PrepError};
 use crate::sample::{self, Posterior, PriorSet, Progress, SampleError, SamplerSettings};
 use crate::summary::Summary;
-use crate::target::{PriorChoices, Settings, Star, Target, Transit};
+use crate::target::{IndicatorTerms, PriorChoices, Settings, Star, Target, Transit};
 
 /// Why an analysis stopped.
 #[derive(Debug, thiserror::Error)]
@@ -44,6 +46,9 @@ pub enum PipelineError {
     /// The audit could not be made.
     #[error(transparent)]
     Audit(#[from] AuditError),
+    /// The data preparation asked for in the target file could not be done.
+    #[error(transparent)]
+    Prep(#[from] PrepError),
 }
 
 /// A constraint or bound the analysis used, recorded in results.json.
@@ -88,6 +93,11 @@ pub struct Request<'a> {
     pub profile: ProfileSettings,
     /// A previous solution to start the search's fits from (see [`fit::search_warm`]).
     pub warm: Vec<WarmPlanet>,
+    /// How outliers are found and treated.
+    pub outliers: OutlierPolicy,
+    /// What was done to the data before (eras, transit windows, binning); the outlier
+    /// step is added by [`analyse`].
+    pub log: DataLog,
 }
 
 /// A planet of a previous solution, as a results file records it.
@@ -252,6 +262,8 @@ pub struct Analysis {
     /// The run whose solution started the search, when warm-started (set by the caller
     /// that found it; the started signals are in [`Search::warm_started`]).
     pub warm_from: Option<String>,
+    /// Everything done to the data between reading and the final fit.
+    pub data_log: DataLog,
 }
 
 /// Search settings from a target file's settings.
@@ -312,7 +324,17 @@ pub fn run_target_from(
     warm: &[WarmPlanet],
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
-    let set = data::load(&target.data)?;
+    let raw = data::load(&target.data)?;
+    let preparation = target.preparation();
+    let (set, log) = prep::prepare(&raw, &preparation)?;
+    prep::check_offset_priors(&set, &target.offset_priors)?;
+    let mut search = search_settings(&target.settings);
+    search.options.offset_priors = target.offset_priors.clone();
+    if target.settings.indicator_terms != IndicatorTerms::None {
+        search.options.regressors = set.indicators.len();
+        search.options.regressors_per_instrument =
+            target.settings.indicator_terms == IndicatorTerms::PerInstrument;
+    }
     let request = Request {
         name: target.name.clone(),
         set,
@@ -320,15 +342,33 @@ pub fn run_target_from(
         transits: &target.transits,
         periods: Vec::new(),
         fix_periods: false,
-        search: search_settings(&target.settings),
+        search,
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),
         sampler: target.settings.sample.then(|| target.settings.sampler()),
         priors: target.priors.clone(),
         warm: warm.to_vec(),
+        outliers: target.settings.outlier_policy(),
+        log,
     };
     let mut analysis = analyse(request, progress)?;
+    if target.settings.bin_compare {
+        let unbinned = prep::Preparation {
+            bin_window_d: None,
+            ..preparation
+        };
+        let (all, _) = prep::prepare(&raw, &unbinned)?;
+        let fit = &analysis.search.fit;
+        let other = fit::fit(&all, &fit.planet_specs(), &fit.options)?;
+        if let Some(b) = analysis.data_log.binning.as_mut() {
+            b.unbinned_fit = Some(prep::Comparison {
+                n_points: other.n_points,
+                planets: other.planets,
+                instruments: other.instruments,
+            });
+        }
+    }
     analysis.periodograms = Some(periodogram_report(&analysis)?);
     if target.settings.audit && !analysis.search.fit.planets.is_empty() {
         let ctx = audit::Context {
@@ -383,8 +423,8 @@ pub fn analyse(
     req: Request,
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
-    let set = &req.set;
     let mut known = Vec::new();
+    let set = &req.set;
     let mut priors = Vec::new();
     if req.sampler.is_none() {
         priors.push(Prior {
@@ -392,6 +432,17 @@ pub fn analyse(
             kind: "bound",
             detail: format!("0 <= e <= {}", req.search.options.max_ecc),
             source: "default",
+        });
+    }
+    for p in &req.search.options.offset_priors {
+        priors.push(Prior {
+            parameter: format!(
+                "offset_mps.{} - offset_mps.{}",
+                p.instruments[1], p.instruments[0]
+            ),
+            kind: "gaussian",
+            detail: format!("{} ± {} m/s", p.mean_mps, p.sd_mps),
+            source: "target file",
         });
     }
     for t in req.transits {
@@ -448,7 +499,8 @@ pub fn analyse(
         known.push(spec);
     }
     let warm: Vec<PlanetSpec> = req.warm.iter().map(|w| w.spec(set.epoch_bjd)).collect();
-    let search = fit::search_warm(set, &known, &req.search, &warm)?;
+    let (search, set, log) = search_with_outliers(&req, &known, &warm)?;
+    let set = &set;
     let signals = fit::signal_tests(set, &search, known.len())?;
 
     let posterior = match &req.sampler {
@@ -527,7 +579,7 @@ pub fn analyse(
     }
     Ok(Analysis {
         name: req.name,
-        set: req.set.clone(),
+        set: set.clone(),
         search,
         signals,
         posterior,
@@ -540,7 +592,69 @@ pub fn analyse(
         periodograms: None,
         audit: None,
         warm_from: None,
+        data_log: log,
     })
+}
+
+/// Most fits of the outlier search (each after leaving out the points the previous one
+/// flagged).
+const MAX_CLIP_ROUNDS: usize = 5;
+
+/// The search, repeated on the data without the points flagged as outliers against the
+/// previous fit until none is flagged (mode `clip`); or once, under a Student-t
+/// likelihood (`student-t`; its degrees of freedom, when fitted, are the value of
+/// [`prep::DOF_GRID`] with the largest likelihood, refitting the first search's planets)
+/// or the Gaussian (`keep`), with the flagged points kept.
+/// Returns the search, the points it fitted and the data log with the outlier step.
+fn search_with_outliers(
+    req: &Request,
+    known: &[PlanetSpec],
+    warm: &[PlanetSpec],
+) -> Result<(Search, RvSet, DataLog), PipelineError> {
+    let policy = req.outliers;
+    let mut log = req.log.clone();
+    log.n_fitted = req.set.len();
+    log.outlier_search = prep::OutlierLog {
+        mode: policy.mode,
+        threshold_sigma: policy.threshold_sigma,
+        dof: (policy.mode == OutlierMode::StudentT).then_some(policy.dof),
+        dof_profile: Vec::new(),
+        rounds: 0,
+    };
+    let mut settings = req.search.clone();
+    if policy.mode == OutlierMode::StudentT {
+        settings.options.noise = Noise::StudentT { dof: policy.dof };
+    }
+    let mut set = req.set.clone();
+    if policy.mode == OutlierMode::StudentT && policy.fit_dof {
+        let first = fit::search_warm(&set, known, &settings, warm)?;
+        let specs = first.fit.planet_specs();
+        let mut profile = Vec::new();
+        for dof in prep::DOF_GRID {
+            let mut options = settings.options.clone();
+            options.noise = Noise::StudentT { dof };
+            profile.push([dof, fit::fit(&set, &specs, &options)?.log_likelihood]);
+        }
+        let best = profile
+            .iter()
+            .max_by(|a, b| a[1].total_cmp(&b[1]))
+            .map_or(policy.dof, |p| p[0]);
+        settings.options.noise = Noise::StudentT { dof: best };
+        log.outlier_search.dof = Some(best);
+        log.outlier_search.dof_profile = profile;
+    }
+    loop {
+        let search = fit::search_warm(&set, known, &settings, warm)?;
+        log.outlier_search.rounds += 1;
+        let flags = prep::flag_outliers(&set, &search.fit.params, policy.threshold_sigma);
+        let clip = policy.mode == OutlierMode::Clip && log.outlier_search.rounds < MAX_CLIP_ROUNDS;
+        if clip && !flags.is_empty() {
+            set = prep::record_outliers(&set, &flags, true, &mut log);
+            continue;
+        }
+        prep::record_outliers(&set, &flags, false, &mut log);
+        return Ok((search, set, log));
+    }
 }
 
 /// A planet started at period `p` with the amplitude and phase of the best sinusoid.

@@ -7,6 +7,8 @@ use std::path::{Path, PathBuf};
 use serde::Deserialize;
 
 use crate::data::{DataSpec, RvUnit, TimeStandard};
+use crate::fit::OffsetPrior;
+use crate::prep::{Era, OutlierMode, OutlierPolicy, Preparation, TransitWindow};
 use crate::sample::Prior;
 
 /// Everything a run needs to know about one star.
@@ -26,6 +28,10 @@ pub struct Target {
     pub settings: Settings,
     /// Priors chosen in the target file (the rest keep their defaults).
     pub priors: PriorChoices,
+    /// Instruments whose hardware changed, split into eras.
+    pub eras: Vec<Era>,
+    /// Known offsets between instruments or eras (e.g. from standard stars).
+    pub offset_priors: Vec<OffsetPrior>,
 }
 
 /// Priors set in the target file's `[priors]` table, by planet label and instrument name.
@@ -212,6 +218,40 @@ pub struct Settings {
     /// Start `heft run` from the latest complete run's solution (default false: every run
     /// starts afresh, so identical inputs give identical results).
     pub warm_start: bool,
+    /// Outliers: `clip` (default), `student-t` or `keep`.
+    pub outliers: OutlierMode,
+    /// A point is an outlier beyond this many robust standard deviations (default 5).
+    pub outlier_threshold: f64,
+    /// Degrees of freedom of the Student-t likelihood (default 4).
+    pub student_t_dof: f64,
+    /// Fit the Student-t degrees of freedom instead of using `student_t_dof` (default
+    /// false).
+    pub fit_student_t_dof: bool,
+    /// Leave points taken in transit out of the fit (default true; needs each transit's
+    /// `duration_h`).
+    pub exclude_in_transit: bool,
+    /// Combine the points of an instrument within this many days, e.g. 0.5 for a night
+    /// (default: no binning).
+    pub bin_window_d: Option<f64>,
+    /// With binning, also fit the unbinned points and report both (default false).
+    pub bin_compare: bool,
+    /// Linear terms in every indicator column of the data: `none` (default), `shared`
+    /// (one coefficient per indicator) or `per-instrument` (one per indicator and
+    /// instrument).
+    pub indicator_terms: IndicatorTerms,
+}
+
+/// Linear decorrelation terms in the activity indicators.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Deserialize, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum IndicatorTerms {
+    /// No indicator terms.
+    #[default]
+    None,
+    /// One coefficient per indicator for all instruments.
+    Shared,
+    /// One coefficient per indicator and instrument.
+    PerInstrument,
 }
 
 impl Default for Settings {
@@ -240,6 +280,14 @@ impl Default for Settings {
             audit: true,
             audit_posterior: false,
             warm_start: false,
+            outliers: OutlierMode::Clip,
+            outlier_threshold: OutlierPolicy::default().threshold_sigma,
+            student_t_dof: OutlierPolicy::default().dof,
+            fit_student_t_dof: false,
+            exclude_in_transit: true,
+            bin_window_d: None,
+            bin_compare: false,
+            indicator_terms: IndicatorTerms::None,
         }
     }
 }
@@ -256,6 +304,40 @@ impl Settings {
             period_modes: self.period_modes,
             seed: self.seed,
             ..crate::sample::SamplerSettings::default()
+        }
+    }
+
+    /// The outlier policy these choose.
+    pub fn outlier_policy(&self) -> OutlierPolicy {
+        OutlierPolicy {
+            mode: self.outliers,
+            threshold_sigma: self.outlier_threshold,
+            dof: self.student_t_dof,
+            fit_dof: self.fit_student_t_dof,
+        }
+    }
+}
+
+impl Target {
+    /// The data preparation this target asks for: its eras, the transit windows of the
+    /// transits with a duration, and the binning settings.
+    pub fn preparation(&self) -> Preparation {
+        Preparation {
+            eras: self.eras.clone(),
+            windows: self
+                .transits
+                .iter()
+                .filter_map(|t| {
+                    t.duration_h.map(|(h, _)| TransitWindow {
+                        label: t.label.clone(),
+                        period_d: t.period_d,
+                        tc_bjd: t.tc_bjd,
+                        duration_d: h / 24.0,
+                    })
+                })
+                .collect(),
+            exclude_in_transit: self.settings.exclude_in_transit,
+            bin_window_d: self.settings.bin_window_d,
         }
     }
 }
@@ -303,6 +385,29 @@ struct RawTarget {
     settings: Settings,
     #[serde(default)]
     priors: RawPriors,
+    #[serde(default)]
+    era: Vec<RawEra>,
+    #[serde(default)]
+    offset_prior: Vec<RawOffsetPrior>,
+}
+
+/// An `[[offset_prior]]` table: `instruments = [earlier, later]` and
+/// `gaussian = [mean, sd]` of `offset(later) − offset(earlier)`, m/s.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawOffsetPrior {
+    instruments: [String; 2],
+    gaussian: [f64; 2],
+}
+
+/// An `[[era]]` table: `instrument`, `split_bjd` (a list of full BJD_TDB times) and
+/// optional `names` (default `<instrument>-1`, `<instrument>-2`, …).
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawEra {
+    instrument: String,
+    split_bjd: Vec<f64>,
+    names: Option<Vec<String>>,
 }
 
 #[derive(Deserialize, Default)]
@@ -712,6 +817,86 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         ));
     }
 
+    if !(s.outlier_threshold.is_finite() && s.outlier_threshold > 0.0) {
+        return Err(invalid(
+            "settings.outlier_threshold",
+            format!("must be a positive number, got {}", s.outlier_threshold),
+        ));
+    }
+    positive("settings.student_t_dof", s.student_t_dof)?;
+    if let Some(w) = s.bin_window_d {
+        positive("settings.bin_window_d", w)?;
+    }
+    if s.bin_compare && s.bin_window_d.is_none() {
+        return Err(invalid(
+            "settings.bin_compare",
+            "needs settings.bin_window_d".into(),
+        ));
+    }
+    let mut eras = Vec::new();
+    for (i, e) in raw.era.into_iter().enumerate() {
+        let key = |k: &str| format!("era[{i}].{k}");
+        if e.split_bjd.is_empty()
+            || e.split_bjd
+                .iter()
+                .any(|t| !(t.is_finite() && *t > 2_000_000.0))
+            || e.split_bjd.windows(2).any(|w| w[1] <= w[0])
+        {
+            return Err(invalid(
+                &key("split_bjd"),
+                format!(
+                    "needs increasing full BJD_TDB times (above 2000000), got {:?}",
+                    e.split_bjd
+                ),
+            ));
+        }
+        let names = e.names.unwrap_or_else(|| {
+            (1..=e.split_bjd.len() + 1)
+                .map(|n| format!("{}-{n}", e.instrument))
+                .collect()
+        });
+        if names.len() != e.split_bjd.len() + 1 {
+            return Err(invalid(
+                &key("names"),
+                format!(
+                    "{} split times make {} eras, but {} names are given",
+                    e.split_bjd.len(),
+                    e.split_bjd.len() + 1,
+                    names.len()
+                ),
+            ));
+        }
+        eras.push(Era {
+            instrument: e.instrument,
+            splits_bjd: e.split_bjd,
+            names,
+        });
+    }
+
+    let mut offset_priors = Vec::new();
+    for (i, p) in raw.offset_prior.into_iter().enumerate() {
+        let key = |k: &str| format!("offset_prior[{i}].{k}");
+        let [mean, sd] = p.gaussian;
+        if !mean.is_finite() {
+            return Err(invalid(
+                &key("gaussian"),
+                format!("mean {mean} is not finite"),
+            ));
+        }
+        positive(&key("gaussian"), sd)?;
+        if p.instruments[0] == p.instruments[1] {
+            return Err(invalid(
+                &key("instruments"),
+                format!("names the same instrument twice ('{}')", p.instruments[0]),
+            ));
+        }
+        offset_priors.push(OffsetPrior {
+            instruments: p.instruments,
+            mean_mps: mean,
+            sd_mps: sd,
+        });
+    }
+
     let priors = prior_choices(raw.priors, &invalid)?;
     Ok(Target {
         name: raw.name,
@@ -721,5 +906,7 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         transits,
         settings: raw.settings,
         priors,
+        eras,
+        offset_priors,
     })
 }

@@ -16,6 +16,7 @@ use heft::audit::{self, Audit, AuditSettings, Context, Verdict};
 use heft::data::RvSet;
 use heft::fit::{FitOptions, SearchSettings, SignalCount};
 use heft::pipeline::{self, Analysis, Request};
+use heft::prep::{DataLog, OutlierPolicy};
 use heft::target::{OrbitShape, Settings, Star};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -64,6 +65,7 @@ fn simulate(times: &[f64], period: f64, k: f64, sigma: f64, rng: &mut ChaCha8Rng
 /// lighter but complete settings.
 fn audit_claim(set: RvSet, period: f64, seed: u64, star: &Star) -> (Analysis, Audit) {
     let defaults = Settings::default();
+    let n = set.len();
     let request = Request {
         name: "injected".into(),
         set,
@@ -89,6 +91,8 @@ fn audit_claim(set: RvSet, period: f64, seed: u64, star: &Star) -> (Analysis, Au
         priors: Default::default(),
         profile: pipeline::profile_settings(&defaults),
         warm: Vec::new(),
+        outliers: OutlierPolicy::default(),
+        log: DataLog::new(n),
     };
     let mut analysis = pipeline::analyse(request, &mut |_| {}).unwrap();
     let labels = vec![analysis.search.fit.planets[0].label.clone()];

@@ -547,3 +547,173 @@ fn quiet_and_verbose_modes() {
     let both = heft(&["-q", "-v", "periodogram", &data]);
     assert_eq!(both.status.code(), Some(2));
 }
+
+/// `--outliers` (design.md): with the default `clip` a point moved by 200 m/s is listed
+/// under `outliers` with `file`, `row`, `time_d` and `residual_sigma` and left out; with
+/// `keep` it is listed and kept; `student-t` keeps every point under that likelihood.
+#[test]
+fn fit_outliers_are_listed() {
+    let dir = tempfile::tempdir().unwrap();
+    let text = std::fs::read_to_string(repo("tests/reference/twobody/one_planet.csv")).unwrap();
+    let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
+    let n = lines.len() - 1;
+    // Line 10 of the file (header = line 1).
+    let f: Vec<String> = lines[9].split(',').map(str::to_string).collect();
+    let moved = f[1].parse::<f64>().unwrap() + 200.0;
+    lines[9] = format!("{},{moved},{}", f[0], f[2]);
+    let file = write(dir.path(), "moved.csv", &(lines.join("\n") + "\n"));
+    let fit = |mode: &str| {
+        json_of(&heft(&[
+            "fit",
+            &file.display().to_string(),
+            "--period",
+            "12.3047",
+            "--planets",
+            "1",
+            "--outliers",
+            mode,
+            "--json",
+        ]))
+    };
+    for (mode, fitted, excluded) in [
+        ("clip", n - 1, true),
+        ("keep", n, false),
+        ("student-t", n, false),
+    ] {
+        let doc = fit(mode);
+        let outliers = doc["outliers"].as_array().unwrap();
+        assert_eq!(outliers.len(), 1, "{mode}: {outliers:?}");
+        let o = &outliers[0];
+        assert_eq!(o["file"], "moved.csv");
+        assert_eq!(o["row"], 10);
+        assert_eq!(o["time_d"].as_f64().unwrap(), f[0].parse::<f64>().unwrap());
+        assert!(o["residual_sigma"].as_f64().unwrap() > 5.0, "{mode}: {o}");
+        assert_eq!(o["excluded"], excluded);
+        assert_eq!(doc["data"]["n_points"], fitted, "{mode}");
+        assert_eq!(doc["data"]["n_read"], n);
+        assert_eq!(doc["data_changes"]["outlier_search"]["mode"], mode);
+    }
+}
+
+/// Target-file data settings that do not fit the data: exit 2 naming the file and key.
+#[test]
+fn bad_data_settings_exit_2() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("tests/reference/twobody/one_planet.csv");
+    let target = |extra: &str| {
+        format!(
+            "name = \"Invented\"\n[star]\nmass_msun = 1.0\n[[data]]\nfile = \"{data}\"\n{extra}"
+        )
+    };
+    let cases = [
+        (
+            "[[era]]\ninstrument = \"nope\"\nsplit_bjd = [2459700.5]\n",
+            "era: instrument 'nope' is not in the data (instruments: one_planet)",
+        ),
+        (
+            "[[era]]\ninstrument = \"one_planet\"\nsplit_bjd = [2459700.5]\nnames = [\"x\"]\n",
+            "era[0].names: 1 split times make 2 eras, but 1 names are given",
+        ),
+        (
+            "[[offset_prior]]\ninstruments = [\"one_planet\", \"other\"]\ngaussian = [3.0, 1.0]\n",
+            "offset_prior: instrument 'other' is not in the data",
+        ),
+        (
+            "[settings]\nbin_window_d = -1.0\n",
+            "settings.bin_window_d: must be a positive number",
+        ),
+    ];
+    for (i, (extra, message)) in cases.iter().enumerate() {
+        let path = write(dir.path(), &format!("t{i}.toml"), &target(extra));
+        let out = heft(&[
+            "run",
+            &path.display().to_string(),
+            "--out",
+            &dir.path().join(format!("r{i}")).display().to_string(),
+        ]);
+        assert_eq!(out.status.code(), Some(2), "{extra}: {}", stderr(&out));
+        assert!(stderr(&out).contains(message), "{extra}: {}", stderr(&out));
+    }
+}
+
+/// A target file with an era, a transit window, binning with the unbinned fit beside it
+/// and per-instrument indicator terms: each change is in the summary, results.json and
+/// data_used.csv (one row per point read or bin, with its status).
+#[test]
+fn run_shows_every_data_change() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    // Invented: one instrument, two points a night 0.05 d apart, a hardware change at
+    // day 150 (+8 m/s), a width indicator; planet b (P 6.1 d, K 12 m/s) transits.
+    let mut rows = String::from("time,rv,rv_err,width\n");
+    for night in 0..60 {
+        for j in 0..2 {
+            let t = 2_460_000.3 + 5.0 * f64::from(night) + 0.05 * f64::from(j);
+            let x = t - 2_460_000.0;
+            let rv = -12.0 * (std::f64::consts::TAU * (x - 2.0) / 6.1).sin()
+                + if x >= 150.0 { 8.0 } else { 0.0 }
+                + 1.5 * (7.3 * x).sin();
+            rows.push_str(&format!("{t:.5},{rv:.4},1.5,{:.3}\n", (3.1 * x).cos()));
+        }
+    }
+    write(d, "loom.csv", &rows);
+    let target = write(
+        d,
+        "t.toml",
+        "name = \"Invented\"\n[star]\nmass_msun = 0.8\n[[data]]\nfile = \"loom.csv\"\n\
+         [[transit]]\nlabel = \"b\"\nperiod_d = 6.1\ntc = 2460002.0\nduration_h = 3.0\n\
+         [[era]]\ninstrument = \"loom\"\nsplit_bjd = [2460150.0]\n\
+         [settings]\naudit = false\ntrend = 0\nbin_window_d = 0.5\nbin_compare = true\n\
+         indicator_terms = \"per-instrument\"\n",
+    );
+    let out_dir = d.join("run");
+    let out = heft(&[
+        "run",
+        &target.display().to_string(),
+        "--out",
+        &out_dir.display().to_string(),
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    let summary = std::fs::read_to_string(out_dir.join("summary.txt")).unwrap();
+    for needle in [
+        "eras: loom split at BJD_TDB 2460150 into loom-1",
+        "in transit:",
+        "binning:",
+        "m/s unbinned",
+        "outliers (beyond 5 robust σ",
+        "loom-2",
+    ] {
+        assert!(
+            summary.contains(needle),
+            "summary lacks {needle}:\n{summary}"
+        );
+    }
+    let doc: Value =
+        serde_json::from_str(&std::fs::read_to_string(out_dir.join("results.json")).unwrap())
+            .unwrap();
+    let changes = &doc["data_changes"];
+    assert_eq!(
+        changes["eras"][0]["names"],
+        serde_json::json!(["loom-1", "loom-2"])
+    );
+    let in_transit = changes["in_transit"].as_array().unwrap().len();
+    assert!(in_transit > 0);
+    let binning = &changes["binning"];
+    assert!(binning["unbinned_fit"]["planets"][0]["k_mps"]["value"].is_number());
+    assert_eq!(
+        binning["n_before"].as_u64().unwrap() as usize + in_transit,
+        120
+    );
+    assert_eq!(doc["indicator_terms"].as_array().unwrap().len(), 2);
+    let used = std::fs::read_to_string(out_dir.join("data_used.csv")).unwrap();
+    let lines: Vec<&str> = used.lines().skip(1).collect();
+    let transit_rows = lines.iter().filter(|l| l.contains(",in-transit,")).count();
+    assert_eq!(transit_rows, in_transit);
+    // Rows after binning: one per bin; their n_combined add up to the points binned.
+    let combined: u64 = lines
+        .iter()
+        .filter(|l| !l.contains(",in-transit,"))
+        .map(|l| l.split(',').nth(9).unwrap().parse::<u64>().unwrap())
+        .sum();
+    assert_eq!(combined, binning["n_before"].as_u64().unwrap());
+}

@@ -145,14 +145,23 @@ fn demo_report_holds_every_figure_and_rebuilds() {
     let instruments = doc["instruments"].as_array().unwrap().len();
     assert!(!planets.is_empty() && instruments == 3);
 
-    // data_used.csv: one row per point; residual = rv − model.
+    // data_used.csv: one row per point read (those left out carry their reason in
+    // `status`); residual = rv − model.
     let used = read(&run_dir.join("data_used.csv"));
-    assert_eq!(used.lines().count(), n_points + 1);
+    let n_read = doc["data"]["n_read"].as_u64().unwrap() as usize;
+    assert_eq!(used.lines().count(), n_read + 1);
+    let status_used = used
+        .lines()
+        .skip(1)
+        .filter(|l| l.contains(",used,"))
+        .count();
+    assert_eq!(status_used, n_points);
     for line in used.lines().skip(1) {
         let f: Vec<f64> = line
             .split(',')
-            .skip(3)
-            .map(|x| x.parse().unwrap())
+            .enumerate()
+            .filter(|&(j, _)| j >= 3 && j != 8)
+            .map(|(_, x)| x.parse().unwrap())
             .collect();
         assert!(
             (f[1] - f[3] - f[4]).abs() < 1e-9 * f[1].abs().max(1.0),

@@ -11,6 +11,7 @@ use heft::data::RvSet;
 use heft::fit::{FitOptions, SearchSettings, SignalCount};
 use heft::orbit::Orbit;
 use heft::pipeline::{self, Request};
+use heft::prep::{DataLog, OutlierPolicy};
 use heft::sample::chains::{self, SamplerSettings};
 use heft::target::{OrbitShape, Star};
 use nalgebra::{DMatrix, DVector};
@@ -201,6 +202,8 @@ fn request<'a>(inj: &'a Injected, sampler: SamplerSettings) -> Request<'a> {
         sampler: Some(sampler),
         priors: Default::default(),
         warm: Vec::new(),
+        outliers: OutlierPolicy::default(),
+        log: DataLog::new(inj.set.len()),
     }
 }
 

@@ -6,9 +6,11 @@
 //!   at the fitted period is refitted to the data with everything else removed (offsets
 //!   free); the seasons' `(a, b)` are tested for one common value with
 //!   `χ² = Σ (v_s − v̄)ᵀ C_s⁻¹ (v_s − v̄)`, `2(S − 1)` degrees of freedom.
-//! - Pearson correlation of each indicator (centred per instrument) with the RVs (offsets
-//!   removed) and with the residuals of the full fit; two-sided p-value from Student's t
-//!   with n − 2 degrees of freedom.
+//! - Pearson and Spearman rank correlation of each indicator (centred per instrument)
+//!   with the RVs (offsets removed) and with the residuals of the full fit; two-sided
+//!   p-values from Student's t with n − 2 degrees of freedom (for Spearman's ρ, Pearson's
+//!   r of the ranks with tied values given their mean rank: Spearman 1904, Am. J. Psychol.
+//!   15, 72; the t approximation as in scipy.stats.spearmanr).
 //! - GLS periodogram of each indicator (one offset per instrument, equal weights) on the
 //!   search grid: its highest power within `1/span` of the planet's frequency, with the
 //!   Baluev FAP.
@@ -96,6 +98,10 @@ pub struct Correlation {
     pub r: f64,
     /// Two-sided p-value of r = 0.
     pub p_value: f64,
+    /// Spearman's rank correlation ρ.
+    pub spearman_rho: f64,
+    /// Two-sided p-value of ρ = 0.
+    pub spearman_p_value: f64,
 }
 
 /// An indicator's periodogram near the planet's period.
@@ -232,22 +238,27 @@ pub fn student_t_two_sided(t: f64, nu: f64) -> f64 {
     beta_reg(0.5 * nu, 0.5, nu / (nu + t * t))
 }
 
-/// Pearson r of `x` and `y` over the points where both are finite, with its p-value.
-fn pearson(x: &[f64], y: &[f64]) -> Option<(usize, f64, f64)> {
-    let pairs: Vec<(f64, f64)> = x
-        .iter()
+/// The pairs of `x` and `y` where both are finite.
+fn finite_pairs(x: &[f64], y: &[f64]) -> (Vec<f64>, Vec<f64>) {
+    x.iter()
         .zip(y)
         .filter(|(a, b)| a.is_finite() && b.is_finite())
         .map(|(a, b)| (*a, *b))
-        .collect();
-    let n = pairs.len();
+        .unzip()
+}
+
+/// Pearson r of `x` and `y` over the points where both are finite, with its two-sided
+/// p-value: `(n, r, p)`; `None` for fewer than 4 points or a constant column.
+pub fn pearson(x: &[f64], y: &[f64]) -> Option<(usize, f64, f64)> {
+    let (x, y) = finite_pairs(x, y);
+    let n = x.len();
     if n < 4 {
         return None;
     }
-    let mx = pairs.iter().map(|p| p.0).sum::<f64>() / n as f64;
-    let my = pairs.iter().map(|p| p.1).sum::<f64>() / n as f64;
+    let mx = x.iter().sum::<f64>() / n as f64;
+    let my = y.iter().sum::<f64>() / n as f64;
     let (mut sxy, mut sxx, mut syy) = (0.0, 0.0, 0.0);
-    for (a, b) in &pairs {
+    for (a, b) in x.iter().zip(&y) {
         sxy += (a - mx) * (b - my);
         sxx += (a - mx).powi(2);
         syy += (b - my).powi(2);
@@ -261,6 +272,33 @@ fn pearson(x: &[f64], y: &[f64]) -> Option<(usize, f64, f64)> {
     Some((n, r, student_t_two_sided(t, nu)))
 }
 
+/// 1-based ranks of `v`, tied values sharing their mean rank.
+fn ranks(v: &[f64]) -> Vec<f64> {
+    let mut order: Vec<usize> = (0..v.len()).collect();
+    order.sort_by(|&a, &b| v[a].total_cmp(&v[b]));
+    let mut out = vec![0.0; v.len()];
+    let mut start = 0;
+    while start < order.len() {
+        let mut end = start + 1;
+        while end < order.len() && v[order[end]] == v[order[start]] {
+            end += 1;
+        }
+        let mean_rank = 0.5 * (start + end + 1) as f64;
+        for &j in &order[start..end] {
+            out[j] = mean_rank;
+        }
+        start = end;
+    }
+    out
+}
+
+/// Spearman's ρ of `x` and `y` over the points where both are finite (Pearson r of the
+/// ranks), with its two-sided p-value from Student's t: `(n, ρ, p)`.
+pub fn spearman(x: &[f64], y: &[f64]) -> Option<(usize, f64, f64)> {
+    let (x, y) = finite_pairs(x, y);
+    pearson(&ranks(&x), &ranks(&y))
+}
+
 /// Correlations of each indicator with the RVs and the residuals of the base fit.
 fn correlations(refit: &Refitter) -> Vec<Correlation> {
     let set = refit.set;
@@ -272,13 +310,17 @@ fn correlations(refit: &Refitter) -> Vec<Correlation> {
     let mut out = Vec::new();
     for ind in centred_indicators(set).indicators {
         for (against, y) in [("rv", &rv), ("residuals", &residuals)] {
-            if let Some((n_points, r, p_value)) = pearson(&ind.values, y) {
+            if let (Some((n_points, r, p_value)), Some((_, rho, p_rho))) =
+                (pearson(&ind.values, y), spearman(&ind.values, y))
+            {
                 out.push(Correlation {
                     indicator: ind.name.clone(),
                     against,
                     n_points,
                     r,
                     p_value,
+                    spearman_rho: rho,
+                    spearman_p_value: p_rho,
                 });
             }
         }
@@ -353,6 +395,41 @@ mod tests {
         assert!((chi2_survival(18.307_04, 10.0) - 0.05).abs() < 1e-5);
         assert!((student_t_two_sided(2.228_14, 10.0) - 0.05).abs() < 1e-5);
         assert!((student_t_two_sided(1.959_96, 1e7) - 0.05).abs() < 1e-5);
+    }
+
+    /// Pearson and Spearman correlations and p-values against scipy.stats.pearsonr and
+    /// spearmanr (fixture written by tests/reference/make_correlation_fixture.py, versions
+    /// recorded in it), including tied values.
+    #[test]
+    fn correlations_match_scipy() {
+        let doc: serde_json::Value =
+            serde_json::from_str(include_str!("../../tests/reference/correlations.json")).unwrap();
+        for set in doc["sets"].as_array().unwrap() {
+            let col = |k: &str| -> Vec<f64> {
+                set[k]
+                    .as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|v| v.as_f64().unwrap())
+                    .collect()
+            };
+            let (x, y) = (col("x"), col("y"));
+            let num = |k: &str| set[k].as_f64().unwrap();
+            let (_, r, p) = pearson(&x, &y).unwrap();
+            let (_, rho, p_rho) = spearman(&x, &y).unwrap();
+            let name = set["name"].as_str().unwrap();
+            assert!((r - num("pearson_r")).abs() < 1e-12, "{name}: r {r}");
+            assert!(
+                (rho - num("spearman_rho")).abs() < 1e-12,
+                "{name}: rho {rho}"
+            );
+            for (got, want) in [(p, num("pearson_p")), (p_rho, num("spearman_p"))] {
+                assert!(
+                    (got - want).abs() <= 1e-9 * want.max(1e-300) + 1e-15,
+                    "{name}: p {got} vs {want}"
+                );
+            }
+        }
     }
 
     #[test]

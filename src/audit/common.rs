@@ -51,6 +51,8 @@ pub struct Refitter<'a> {
     transit_draws: Vec<Option<TransitDraws>>,
     /// Standard normal draws that turn K ± σ_K into K draws (common to all refits).
     k_normals: Vec<f64>,
+    /// The fitted points with the clipped outliers put back, when outliers were clipped.
+    pub before_clipping: Option<RvSet>,
 }
 
 impl<'a> Refitter<'a> {
@@ -90,6 +92,7 @@ impl<'a> Refitter<'a> {
             star_draws,
             transit_draws,
             k_normals,
+            before_clipping: analysis.data_log.before_clipping(&analysis.set),
         })
     }
 
@@ -100,7 +103,7 @@ impl<'a> Refitter<'a> {
 
     /// Model options of the baseline.
     pub fn options(&self) -> FitOptions {
-        self.base.options
+        self.base.options.clone()
     }
 
     /// Planet specs starting at the baseline optimum.

@@ -7,7 +7,10 @@
 //! indicator (centred per instrument); a signal at the stellar rotation period when it is
 //! known; and, for two signals near a 2:1 period ratio, one eccentric planet at the outer
 //! period instead (the degeneracy of Anglada-Escudé, López-Morales & Chambers 2010, ApJ
-//! 709, 168). All are maximum-likelihood refits started from the baseline.
+//! 709, 168); and, under a Gaussian likelihood, a Student-t likelihood (on the points
+//! before outlier clipping when points were clipped: the comparison of clipping with
+//! down-weighting; a variant fitted to other points is never marked competitive, as its
+//! BIC is not comparable). All are maximum-likelihood refits started from the baseline.
 //!
 //! Cross-validation: the data, in time order, are cut into contiguous blocks; each block
 //! in turn is predicted by the model fitted to the others, and the log predictive density
@@ -25,8 +28,9 @@ use super::PlanetValues;
 use super::common::{Refitter, centred_indicators};
 use crate::data::RvSet;
 use crate::fit::{Fit, FitOptions, PlanetSpec, fit, next_label};
-use crate::model::point_log_likelihood;
+use crate::model::{Noise, point_log_likelihood};
 use crate::periodogram::sinusoid_at;
+use crate::prep::OutlierPolicy;
 use crate::sample::{self, PriorSet};
 use crate::summary::Summary;
 use crate::target::OrbitShape;
@@ -156,7 +160,7 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
     let set = refit.set;
     let mut jobs: Vec<(String, RvSet, Vec<PlanetSpec>, FitOptions)> = Vec::new();
     let with = |f: &dyn Fn(&mut FitOptions)| {
-        let mut o = opts;
+        let mut o = opts.clone();
         f(&mut o);
         o
     };
@@ -190,7 +194,12 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
     for (j, s) in specs.iter().enumerate() {
         let mut fewer = specs.clone();
         fewer.remove(j);
-        jobs.push((format!("without {}", s.label), set.clone(), fewer, opts));
+        jobs.push((
+            format!("without {}", s.label),
+            set.clone(),
+            fewer,
+            opts.clone(),
+        ));
     }
     if !set.indicators.is_empty() && opts.regressors == 0 {
         let names: Vec<&str> = set.indicators.iter().map(|i| i.name.as_str()).collect();
@@ -199,6 +208,22 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
             centred_indicators(set),
             specs.clone(),
             with(&|o| o.regressors = set.indicators.len()),
+        ));
+    }
+    if opts.noise == Noise::Gaussian {
+        let dof = OutlierPolicy::default().dof;
+        let (name, data) = match &refit.before_clipping {
+            Some(all) => (
+                format!("Student-t likelihood (ν = {dof}), clipped outliers kept"),
+                all.clone(),
+            ),
+            None => (format!("Student-t likelihood (ν = {dof})"), set.clone()),
+        };
+        jobs.push((
+            name,
+            data,
+            specs.clone(),
+            with(&|o| o.noise = Noise::StudentT { dof }),
         ));
     }
     if let Some((p_rot, p_err)) = refit.settings.rotation_d
@@ -210,7 +235,7 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
             format!("with a rotation signal ({p_rot} d)"),
             set.clone(),
             extra,
-            opts,
+            opts.clone(),
         ));
     }
     for (inner, outer) in near_two_to_one(&specs) {
@@ -253,6 +278,7 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
         .collect();
     let best_bic = all
         .iter()
+        .filter(|(_, _, f)| f.n_points == base.n_points)
         .map(|(_, _, f)| f.bic())
         .fold(f64::INFINITY, f64::min);
     (0..base.planets.len())
@@ -272,7 +298,9 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
                         aic: f.aic(),
                         bic: f.bic(),
                         delta_bic: f.bic() - base.bic(),
-                        competitive: f.bic() - best_bic <= refit.settings.competitive_delta_bic,
+                        // Information criteria compare fits of the same points only.
+                        competitive: f.n_points == base.n_points
+                            && f.bic() - best_bic <= refit.settings.competitive_delta_bic,
                         planet,
                         k_shift_sigma,
                         posterior: post[i].clone(),

@@ -167,6 +167,8 @@ fn likelihood_per_second(planets: usize, n: usize) -> Rate {
         jitters_mps: vec![1.0],
         trend: vec![0.1],
         regressors: vec![],
+        regressors_per_instrument: false,
+        noise: heft::model::Noise::Gaussian,
     };
     let mut evals = 0usize;
     let mut sum = 0.0;

@@ -4,6 +4,7 @@ use std::process::ExitCode;
 
 use heft::fit::{FitOptions, SearchSettings, SignalCount};
 use heft::pipeline::{self, Request};
+use heft::prep::{DataLog, OutlierMode, OutlierPolicy};
 use heft::target::{OrbitShape, Settings, Star};
 
 use super::input::InputArgs;
@@ -42,9 +43,26 @@ pub struct FitArgs {
     /// Seed of the sampler and the Monte Carlo draws.
     #[arg(long, default_value_t = 1)]
     seed: u64,
+    /// Outliers (beyond 5 robust standard deviations of the normalised residuals): leave
+    /// them out and refit until none is left (clip), keep them under a Student-t
+    /// likelihood with 4 degrees of freedom (student-t), or keep them (keep); flagged
+    /// points are listed either way.
+    #[arg(long, value_enum, default_value = "clip")]
+    outliers: OutliersArg,
     /// Print results as JSON (schema heft-results/1).
     #[arg(long)]
     json: bool,
+}
+
+/// Outlier treatment as given on the command line.
+#[derive(Clone, Copy, Debug, clap::ValueEnum)]
+pub enum OutliersArg {
+    /// Leave flagged points out and refit.
+    Clip,
+    /// Keep them under a Student-t likelihood.
+    StudentT,
+    /// Keep them under the Gaussian likelihood.
+    Keep,
 }
 
 impl FitArgs {
@@ -87,6 +105,7 @@ impl FitArgs {
             None => SignalCount::UpTo(defaults.max_signals.max(self.periods.len())),
         };
         let set = self.input.load()?;
+        let log = DataLog::new(set.len());
         Ok(Request {
             name: self
                 .input
@@ -128,6 +147,15 @@ impl FitArgs {
             }),
             priors: Default::default(),
             warm: Vec::new(),
+            outliers: OutlierPolicy {
+                mode: match self.outliers {
+                    OutliersArg::Clip => OutlierMode::Clip,
+                    OutliersArg::StudentT => OutlierMode::StudentT,
+                    OutliersArg::Keep => OutlierMode::Keep,
+                },
+                ..OutlierPolicy::default()
+            },
+            log,
         })
     }
 }

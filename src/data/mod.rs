@@ -36,6 +36,7 @@ mod validate;
 pub use error::{DataError, DataErrorKind};
 pub use load::load;
 pub use time::{TimeScale, TimeStandard, TimeStandardError};
+pub(crate) use validate::median;
 
 /// Unit of the RV and RV-error columns of an input file.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]

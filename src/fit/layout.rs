@@ -8,7 +8,7 @@
 //! regressors. `(e cos ω, e sin ω)` is smooth through e = 0, where ω is undefined.
 
 use crate::data::RvSet;
-use crate::model::Params;
+use crate::model::{Noise, Params};
 use crate::orbit::Orbit;
 use crate::periodogram::Sinusoid;
 use crate::target::OrbitShape;
@@ -51,6 +51,18 @@ impl PlanetSpec {
     }
 }
 
+/// A Gaussian constraint on the difference of two instruments' offsets (e.g. known from
+/// standard stars): `offset[later] − offset[earlier] ~ N(mean, sd²)`, m/s.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct OffsetPrior {
+    /// Instrument (or era) names `[earlier, later]`.
+    pub instruments: [String; 2],
+    /// Mean of the difference, m/s.
+    pub mean_mps: f64,
+    /// Its standard deviation, m/s (> 0).
+    pub sd_mps: f64,
+}
+
 /// Position and kind of every free parameter.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Layout {
@@ -66,6 +78,12 @@ pub struct Layout {
     pub shared_jitter: bool,
     /// Number of indicator regressors (the first this many indicator columns of the data).
     pub regressors: usize,
+    /// One coefficient per indicator and instrument instead of one per indicator.
+    pub regressors_per_instrument: bool,
+    /// Distribution of the residuals.
+    pub noise: Noise,
+    /// Offset constraints `(earlier, later, mean, sd)`: instrument indices, m/s.
+    pub offset_priors: Vec<(usize, usize, f64, f64)>,
     /// Index in θ of each planet's first parameter.
     planet_start: Vec<usize>,
     /// Index of the first offset.
@@ -91,7 +109,7 @@ pub enum Role {
     Jitter(usize),
     /// Trend coefficient of order `k` (1-based).
     Trend(usize),
-    /// Coefficient of indicator column `c`.
+    /// Indicator coefficient `j` (see [`Layout::regressor_target`]).
     Regressor(usize),
 }
 
@@ -117,6 +135,9 @@ impl Layout {
             trend,
             shared_jitter: false,
             regressors: 0,
+            regressors_per_instrument: false,
+            noise: Noise::Gaussian,
+            offset_priors: Vec::new(),
             planet_start,
             offsets_start: at,
         }
@@ -139,6 +160,83 @@ impl Layout {
         }
     }
 
+    /// The same layout with one indicator coefficient per instrument (`true`) or one for
+    /// all (`false`).
+    pub fn with_regressors_per_instrument(self, per_instrument: bool) -> Layout {
+        Layout {
+            regressors_per_instrument: per_instrument,
+            ..self
+        }
+    }
+
+    /// Number of indicator coefficients.
+    pub fn n_regressors(&self) -> usize {
+        self.regressors * self.regressor_stride()
+    }
+
+    /// Coefficients per indicator column.
+    fn regressor_stride(&self) -> usize {
+        if self.regressors_per_instrument {
+            self.n_instruments
+        } else {
+            1
+        }
+    }
+
+    /// Indicator column of coefficient `j` ([`Role::Regressor`]) and the instrument it
+    /// applies to (`None`: all).
+    pub fn regressor_target(&self, j: usize) -> (usize, Option<usize>) {
+        let stride = self.regressor_stride();
+        (
+            j / stride,
+            self.regressors_per_instrument.then_some(j % stride),
+        )
+    }
+
+    /// The same layout with residuals distributed as `noise`.
+    pub fn with_noise(self, noise: Noise) -> Layout {
+        Layout { noise, ..self }
+    }
+
+    /// The same layout with offset constraints between instruments of `names`; constraints
+    /// naming an instrument not in `names` are left out (e.g. when a subset of the data
+    /// lacks one).
+    pub fn with_offset_priors(self, priors: &[OffsetPrior], names: &[String]) -> Layout {
+        let index = |n: &String| names.iter().position(|x| x == n);
+        let offset_priors = priors
+            .iter()
+            .filter_map(|p| {
+                Some((
+                    index(&p.instruments[0])?,
+                    index(&p.instruments[1])?,
+                    p.mean_mps,
+                    p.sd_mps,
+                ))
+            })
+            .collect();
+        Layout {
+            offset_priors,
+            ..self
+        }
+    }
+
+    /// `−ln` of the offset constraints at θ (up to a constant) and its gradient, added to
+    /// `grad` when given.
+    pub fn offset_penalty(&self, theta: &[f64], grad: Option<&mut [f64]>) -> f64 {
+        let o = self.offsets_start;
+        let mut total = 0.0;
+        let mut g = grad;
+        for &(a, b, mean, sd) in &self.offset_priors {
+            let z = (theta[o + b] - theta[o + a] - mean) / sd;
+            total += 0.5 * z * z;
+            if let Some(g) = g.as_deref_mut() {
+                g[o + b] += z / sd;
+                g[o + a] -= z / sd;
+            }
+        }
+        total
+    }
+
     /// Number of jitter parameters.
     pub fn n_jitters(&self) -> usize {
         if self.shared_jitter {
@@ -155,7 +253,11 @@ impl Layout {
 
     /// Number of free parameters.
     pub fn len(&self) -> usize {
-        self.offsets_start + self.n_instruments + self.n_jitters() + self.trend + self.regressors
+        self.offsets_start
+            + self.n_instruments
+            + self.n_jitters()
+            + self.trend
+            + self.n_regressors()
     }
 
     /// True when θ is empty (never: offsets and jitters are always free).
@@ -180,7 +282,7 @@ impl Layout {
         roles.extend((0..self.n_instruments).map(Role::Offset));
         roles.extend((0..self.n_jitters()).map(Role::Jitter));
         roles.extend((1..=self.trend).map(Role::Trend));
-        roles.extend((0..self.regressors).map(Role::Regressor));
+        roles.extend((0..self.n_regressors()).map(Role::Regressor));
         roles
     }
 
@@ -227,7 +329,7 @@ impl Layout {
 
     /// Indicator coefficients from θ.
     pub fn regressor_coefficients<'t>(&self, theta: &'t [f64]) -> &'t [f64] {
-        &theta[theta.len() - self.regressors..]
+        &theta[theta.len() - self.n_regressors()..]
     }
 
     /// Model parameters from θ, with each eccentricity capped at `max_ecc` (the caller
@@ -246,6 +348,8 @@ impl Layout {
             jitters_mps,
             trend,
             regressors: self.regressor_coefficients(theta).to_vec(),
+            regressors_per_instrument: self.regressors_per_instrument,
+            noise: self.noise,
         })
     }
 
@@ -292,7 +396,7 @@ impl Layout {
             theta.extend_from_slice(jitters);
         }
         theta.extend((0..self.trend).map(|k| trend.get(k).copied().unwrap_or(0.0)));
-        theta.extend(std::iter::repeat_n(0.0, self.regressors));
+        theta.extend(std::iter::repeat_n(0.0, self.n_regressors()));
         theta
     }
 
@@ -312,7 +416,7 @@ impl Layout {
                 Role::ECosW(_) | Role::ESinW(_) => 0.05,
                 Role::Tc(i) => 0.01 * self.planets[i].period_d,
                 Role::Trend(k) => sigma / years.powi(k as i32),
-                Role::Regressor(c) => sigma / set.indicator_spread(c),
+                Role::Regressor(j) => sigma / set.indicator_spread(self.regressor_target(j).0),
             })
             .collect()
     }
@@ -333,7 +437,12 @@ impl Layout {
                 Role::Jitter(_) if self.shared_jitter => "jitter_mps.shared".to_string(),
                 Role::Jitter(k) => format!("jitter_mps.{}", instruments[k]),
                 Role::Trend(k) => format!("trend_mps_per_yr{k}"),
-                Role::Regressor(c) => format!("regressor.{}", set.indicators[c].name),
+                Role::Regressor(j) => match self.regressor_target(j) {
+                    (c, None) => format!("regressor.{}", set.indicators[c].name),
+                    (c, Some(k)) => {
+                        format!("regressor.{}.{}", set.indicators[c].name, instruments[k])
+                    }
+                },
             })
             .collect()
     }

@@ -12,7 +12,7 @@ mod search;
 mod significance;
 
 pub use aliases::{AliasRefit, alias_refits};
-pub use layout::{Layout, PlanetSpec, Role};
+pub use layout::{Layout, OffsetPrior, PlanetSpec, Role};
 pub use search::{
     Search, SearchSettings, SearchStep, SignalCount, next_label, search, search_warm,
 };
@@ -25,8 +25,8 @@ use rand::Rng;
 use rand_distr::StandardNormal;
 use serde::Serialize;
 
-use crate::data::RvSet;
-use crate::model::Params;
+use crate::data::{RvSet, median};
+use crate::model::{Noise, Params};
 use crate::orbit::periastron_from_conjunction;
 use crate::summary::{Summary, wrap_pi};
 use crate::target::OrbitShape;
@@ -61,7 +61,7 @@ pub enum FitError {
 pub const FRESH_STARTS: usize = 4;
 
 /// Model options of a fit.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct FitOptions {
     /// Orbit shape of every planet.
     pub shape: OrbitShape,
@@ -74,6 +74,13 @@ pub struct FitOptions {
     /// A linear term in each of the first this many indicator columns of the data
     /// (default 0).
     pub regressors: usize,
+    /// One coefficient per indicator and instrument instead of one per indicator
+    /// (default false).
+    pub regressors_per_instrument: bool,
+    /// Distribution of the residuals (default Gaussian).
+    pub noise: Noise,
+    /// Gaussian constraints on differences of instrument offsets (default none).
+    pub offset_priors: Vec<OffsetPrior>,
 }
 
 impl Default for FitOptions {
@@ -84,6 +91,9 @@ impl Default for FitOptions {
             max_ecc: 0.95,
             shared_jitter: false,
             regressors: 0,
+            regressors_per_instrument: false,
+            noise: Noise::Gaussian,
+            offset_priors: Vec::new(),
         }
     }
 }
@@ -114,6 +124,12 @@ pub struct InstrumentEstimate {
     pub name: String,
     /// Number of points.
     pub n_points: usize,
+    /// Time of the first and of the last point, full BJD_TDB.
+    pub first_last_bjd: (f64, f64),
+    /// Time span of its points, days.
+    pub span_d: f64,
+    /// Median of its points' errors, m/s.
+    pub median_err_mps: f64,
     /// Zero point, m/s.
     pub offset_mps: Summary,
     /// Jitter, m/s.
@@ -273,7 +289,10 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         set.n_instruments(),
         options.trend,
     )
-    .with_regressors(options.regressors);
+    .with_regressors(options.regressors)
+    .with_regressors_per_instrument(options.regressors_per_instrument)
+    .with_noise(options.noise)
+    .with_offset_priors(&options.offset_priors, &set.instruments);
     if options.shared_jitter {
         layout = layout.with_shared_jitter();
     }
@@ -472,10 +491,15 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let residuals = params.residuals(set);
     let instruments = (0..set.n_instruments())
         .map(|k| {
-            let r: Vec<f64> = (0..set.len())
-                .filter(|&i| set.instrument[i] == k)
-                .map(|i| residuals[i])
-                .collect();
+            let mine: Vec<usize> = (0..set.len()).filter(|&i| set.instrument[i] == k).collect();
+            let r: Vec<f64> = mine.iter().map(|&i| residuals[i]).collect();
+            let errs: Vec<f64> = mine.iter().map(|&i| set.err_mps[i]).collect();
+            let times = mine
+                .first()
+                .zip(mine.last())
+                .map_or((0.0, 0.0), |(&a, &b)| {
+                    (set.time_d[a] + epoch, set.time_d[b] + epoch)
+                });
             let jo = layout
                 .index(Role::Offset(k))
                 .expect("offsets are always free");
@@ -485,6 +509,9 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
             InstrumentEstimate {
                 name: set.instruments[k].clone(),
                 n_points: r.len(),
+                first_last_bjd: times,
+                span_d: times.1 - times.0,
+                median_err_mps: median(&errs),
                 offset_mps: at(jo),
                 jitter_mps: Summary::symmetric(
                     theta[js].abs(),
@@ -497,7 +524,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let trend = (1..=layout.trend)
         .map(|k| at(layout.index(Role::Trend(k)).expect("trend terms are free")))
         .collect();
-    let regressors = (0..layout.regressors)
+    let regressors = (0..layout.n_regressors())
         .map(|c| {
             at(layout
                 .index(Role::Regressor(c))
@@ -526,7 +553,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
         instruments,
         trend,
         regressors,
-        options: *options,
+        options: options.clone(),
         warnings,
         starts: 1,
     }

@@ -31,7 +31,7 @@ impl Objective<'_> {
 
     /// The minimised function; +∞ for invalid θ.
     pub fn value(&self, theta: &[f64]) -> f64 {
-        let mut total = self.neg_log_likelihood(theta);
+        let mut total = self.neg_log_likelihood(theta) + self.layout.offset_penalty(theta, None);
         for (i, spec) in self.layout.planets.iter().enumerate() {
             let [p, _, ec, es, tc] = self.layout.planet_elements(theta, i);
             let excess = ec.hypot(es) - self.max_ecc;
@@ -65,7 +65,8 @@ impl Objective<'_> {
             .iter()
             .map(|o| set.time_d.iter().map(|&t| o.rv(t)).collect())
             .collect();
-        // ∂f/∂m_i = −r_i/V_i, and ∂f/∂s_k = Σ s (1/V − r²/V²) over instrument k.
+        // ∂f/∂m_i = −∂f/∂r_i, and ∂f/∂s_k = Σ 2s ∂f/∂V over instrument k (for Gaussian
+        // noise −r_i/V_i and Σ s (1/V − r²/V²)).
         let mut dfdm = vec![0.0; n];
         let mut dfds = vec![0.0; set.n_instruments()];
         for i in 0..n {
@@ -78,8 +79,9 @@ impl Objective<'_> {
             let r = set.rv_mps[i] - model;
             let s = params.jitters_mps[k];
             let v = set.err_mps[i] * set.err_mps[i] + s * s;
-            dfdm[i] = -r / v;
-            dfds[k] += 1.0 / v - r * r / (v * v);
+            let (df_dr, df_dv2) = layout.noise.gradient_terms(r, v);
+            dfdm[i] = -df_dr;
+            dfds[k] += df_dv2;
         }
         for (j, role) in layout.roles().into_iter().enumerate() {
             grad[j] = match role {
@@ -97,12 +99,16 @@ impl Objective<'_> {
                 Role::Trend(p) => (0..n)
                     .map(|i| dfdm[i] * (set.time_d[i] / DAYS_PER_YEAR).powi(p as i32))
                     .sum(),
-                Role::Regressor(c) => (0..n)
-                    .map(|i| {
-                        let x = set.indicators[c].values[i];
-                        if x.is_finite() { dfdm[i] * x } else { 0.0 }
-                    })
-                    .sum(),
+                Role::Regressor(r) => {
+                    let (c, only) = layout.regressor_target(r);
+                    (0..n)
+                        .filter(|&i| only.is_none_or(|k| set.instrument[i] == k))
+                        .map(|i| {
+                            let x = set.indicators[c].values[i];
+                            if x.is_finite() { dfdm[i] * x } else { 0.0 }
+                        })
+                        .sum()
+                }
                 _ => 0.0,
             };
         }
@@ -138,6 +144,7 @@ impl Objective<'_> {
                 grad[j] += (tc - mean) / (sd * sd);
             }
         }
+        layout.offset_penalty(theta, Some(&mut grad));
         grad
     }
 }
@@ -212,7 +219,19 @@ mod tests {
             .collect();
         let err: Vec<f64> = (0..n).map(|i| 1.0 + 0.1 * (i % 4) as f64).collect();
         let inst: Vec<usize> = (0..n).map(|i| i % 2).collect();
-        let set = RvSet::from_columns("g", 0.0, t, rv, err, inst, vec!["a".into(), "b".into()]);
+        let mut set = RvSet::from_columns("g", 0.0, t, rv, err, inst, vec!["a".into(), "b".into()]);
+        set.indicators.push(crate::data::Indicator {
+            name: "width".into(),
+            values: (0..n)
+                .map(|i| {
+                    if i % 9 == 4 {
+                        f64::NAN
+                    } else {
+                        (i as f64 * 0.7).cos()
+                    }
+                })
+                .collect(),
+        });
         let spec = |p: f64, label: &str| PlanetSpec {
             period_d: p,
             fix_period: false,
@@ -223,28 +242,48 @@ mod tests {
             tc_prior: Some((1.2, 0.5)),
             label: label.into(),
         };
-        let layout = Layout::new(
+        let base = Layout::new(
             vec![spec(32.0, "b"), spec(11.0, "c")],
             OrbitShape::Eccentric,
             2,
             2,
         );
-        let theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
-        let obj = Objective {
-            set: &set,
-            layout: &layout,
-            max_ecc: 0.95,
+        let constraint = crate::fit::OffsetPrior {
+            instruments: ["a".into(), "b".into()],
+            mean_mps: 0.4,
+            sd_mps: 0.3,
         };
-        let scale = layout.scales(&set);
-        let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
-        let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
-        let g = obj.gradient(&theta, &fwd);
-        let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
-        for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
-            assert!(
-                (a - b).abs() <= 1e-4 * b.abs().max(1.0),
-                "θ[{j}]: {a} vs {b}"
-            );
+        // Gaussian, then Student-t residuals with an offset constraint and an indicator
+        // term per instrument.
+        let robust = base
+            .clone()
+            .with_noise(crate::model::Noise::StudentT { dof: 3.5 })
+            .with_offset_priors(&[constraint], &set.instruments)
+            .with_regressors(1)
+            .with_regressors_per_instrument(true);
+        for layout in [base, robust] {
+            let mut theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
+            let m = theta.len();
+            if layout.n_regressors() == 2 {
+                theta[m - 2..].copy_from_slice(&[0.8, -1.3]);
+            }
+            let obj = Objective {
+                set: &set,
+                layout: &layout,
+                max_ecc: 0.95,
+            };
+            let scale = layout.scales(&set);
+            let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
+            let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
+            let g = obj.gradient(&theta, &fwd);
+            let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
+            for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
+                assert!(
+                    (a - b).abs() <= 1e-4 * b.abs().max(1.0),
+                    "{:?} θ[{j}]: {a} vs {b}",
+                    layout.noise
+                );
+            }
         }
     }
 

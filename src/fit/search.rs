@@ -19,7 +19,7 @@ pub enum SignalCount {
 }
 
 /// Settings of the search.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct SearchSettings {
     /// Shortest period searched, days.
     pub period_min_d: f64,

@@ -241,6 +241,63 @@ fn audit(s: &mut String, results: &Value, figs: &[PageFigure]) {
     figures(s, figs, "audit", "No audit figure.");
 }
 
+/// One paragraph of what was done to the data (results.json `data_changes`, `outliers`),
+/// when the results file has it.
+fn data_changes(s: &mut String, r: &Value) {
+    let c = &r["data_changes"];
+    if !c.is_object() {
+        return;
+    }
+    let count = |v: &Value, excluded: bool| {
+        v.as_array().map_or(0, |a| {
+            a.iter()
+                .filter(|p| p["excluded"].as_bool() == Some(excluded))
+                .count()
+        })
+    };
+    let mut parts = vec![format!(
+        "{} points read, {} fitted",
+        c["n_read"], r["data"]["n_points"]
+    )];
+    for e in c["eras"].as_array().into_iter().flatten() {
+        let names: Vec<&str> = e["names"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .filter_map(Value::as_str)
+            .collect();
+        parts.push(format!(
+            "{} split into eras {}",
+            esc(e["instrument"].as_str().unwrap_or("")),
+            esc(&names.join(", "))
+        ));
+    }
+    let transit = &c["in_transit"];
+    if transit.as_array().is_some_and(|a| !a.is_empty()) {
+        parts.push(format!(
+            "{} in transit left out, {} flagged and kept",
+            count(transit, true),
+            count(transit, false)
+        ));
+    }
+    let b = &c["binning"];
+    if b.is_object() {
+        parts.push(format!(
+            "binned {} → {} within {} d (jitter after binning)",
+            b["n_before"], b["n_after"], b["window_d"]
+        ));
+    }
+    let o = &c["outlier_search"];
+    parts.push(format!(
+        "outliers ({}, beyond {} robust σ): {} left out, {} kept",
+        esc(o["mode"].as_str().unwrap_or("")),
+        o["threshold_sigma"],
+        count(&r["outliers"], true),
+        count(&r["outliers"], false)
+    ));
+    let _ = writeln!(s, "<p>Data: {}.</p>", parts.join("; "));
+}
+
 /// The fit, sampler diagnostics, priors and warnings.
 fn diagnostics(s: &mut String, r: &Value) {
     let fit = &r["fit"];
@@ -254,6 +311,7 @@ fn diagnostics(s: &mut String, r: &Value) {
         fit["n_points"],
         fit["n_params"]
     );
+    data_changes(s, r);
     match r.get("diagnostics").filter(|d| d.is_object()) {
         Some(d) => {
             let verdict = if d["converged"].as_bool() == Some(true) {

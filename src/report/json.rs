@@ -135,6 +135,15 @@ pub fn results_json(a: &Analysis) -> Value {
             })
         })
         .collect();
+    let indicator_terms: Vec<Value> = fit
+        .regressors
+        .iter()
+        .enumerate()
+        .filter_map(|(j, s)| {
+            let at = fit.layout.index(crate::fit::Role::Regressor(j))?;
+            Some(json!({"parameter": fit.names[at], "coefficient": s}))
+        })
+        .collect();
     let mut warnings = a.set.warnings.clone();
     warnings.extend(fit.warnings.iter().cloned());
     if let Some(p) = post {
@@ -151,6 +160,7 @@ pub fn results_json(a: &Analysis) -> Value {
         "draws": a.draws,
         "epoch_bjd": a.set.epoch_bjd,
         "data": {
+            "n_read": a.data_log.n_read,
             "n_points": a.set.len(),
             "baseline_d": a.set.baseline_d(),
             "files": a.set.files.iter().map(|f| f.display().to_string()).collect::<Vec<_>>(),
@@ -158,11 +168,14 @@ pub fn results_json(a: &Analysis) -> Value {
         "planets": planets,
         "instruments": post.map_or(&fit.instruments, |p| &p.instruments),
         "trend": trend,
+        "indicator_terms": indicator_terms,
         "fit": fit_block(fit),
         "model": model_block(a),
         "search": search,
         "system": a.system,
         "priors": a.priors,
+        "data_changes": a.data_log,
+        "outliers": a.data_log.outliers,
         "warnings": warnings,
     });
     if let (Some(p), Value::Object(map)) = (post, &mut doc) {

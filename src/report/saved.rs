@@ -34,43 +34,64 @@ impl SavedError {
     }
 }
 
-/// `data_used.csv`: one row per data point in time order, columns `file`, `row`,
-/// `instrument`, `time_bjd` (BJD_TDB), `rv_mps`, `rv_err_mps`, `model_mps` (planets +
-/// offset + trend of the maximum-likelihood fit), `residual_mps`, then one
-/// `signal_<label>_mps` column per planet (its Keplerian alone).
+/// `data_used.csv`: one row per data point read, in time order, columns `file`, `row`,
+/// `instrument` (era name where an instrument was split), `time_bjd` (BJD_TDB), `rv_mps`,
+/// `rv_err_mps`, `model_mps` (planets + offset + trend of the maximum-likelihood fit),
+/// `residual_mps`, `status` (`used`, or why the point was left out: `outlier`,
+/// `in-transit`), `n_combined` (points binned into this one; `row` is the first of them),
+/// then one `signal_<label>_mps` column per planet (its Keplerian alone).
 pub fn points_csv(a: &Analysis) -> String {
-    let set = &a.set;
     let params = &a.search.fit.params;
-    let model = params.predict(set);
-    let mut s =
-        String::from("file,row,instrument,time_bjd,rv_mps,rv_err_mps,model_mps,residual_mps");
+    let mut s = String::from(
+        "file,row,instrument,time_bjd,rv_mps,rv_err_mps,model_mps,residual_mps,status,n_combined",
+    );
     for p in &a.search.fit.planets {
         let _ = write!(s, ",signal_{}_mps", p.label.replace([',', '"', '\n'], " "));
     }
     s.push('\n');
-    for (i, m) in model.iter().enumerate() {
-        let o = set.origin[i];
-        let file = set.files.get(o.file).map_or(String::new(), |f| {
-            f.file_name()
-                .map_or(String::new(), |n| n.to_string_lossy().into_owned())
-        });
-        let t = set.time_d[i];
-        let _ = write!(
-            s,
-            "{},{},{},{:.8},{},{},{},{}",
-            file.replace([',', '"', '\n'], " "),
-            o.row,
-            set.instruments[set.instrument[i]].replace([',', '"', '\n'], " "),
-            set.epoch_bjd + t,
-            set.rv_mps[i],
-            set.err_mps[i],
-            m,
-            set.rv_mps[i] - m
-        );
-        for orbit in &params.planets {
-            let _ = write!(s, ",{}", orbit.rv(t));
+    let combined = |file: &str, row: usize| {
+        a.data_log.binning.as_ref().map_or(1, |b| {
+            b.bins
+                .iter()
+                .find(|bin| bin.rows[0].0 == file && bin.rows[0].1 == row)
+                .map_or(1, |bin| bin.rows.len())
+        })
+    };
+    let mut rows: Vec<(f64, String)> = Vec::new();
+    let parts =
+        std::iter::once((&a.set, "used")).chain(a.data_log.left_out.iter().map(|(s, w)| (s, *w)));
+    for (set, status) in parts {
+        let model = params.predict(set);
+        for (i, m) in model.iter().enumerate() {
+            let o = set.origin[i];
+            let file = set.files.get(o.file).map_or(String::new(), |f| {
+                f.file_name()
+                    .map_or(String::new(), |n| n.to_string_lossy().into_owned())
+            });
+            let t = set.time_d[i];
+            // In-transit points are left out before binning, so belong to no bin.
+            let n = combined(&file, o.row);
+            let mut line = format!(
+                "{},{},{},{:.8},{},{},{},{},{status},{n}",
+                file.replace([',', '"', '\n'], " "),
+                o.row,
+                set.instruments[set.instrument[i]].replace([',', '"', '\n'], " "),
+                set.epoch_bjd + t,
+                set.rv_mps[i],
+                set.err_mps[i],
+                m,
+                set.rv_mps[i] - m
+            );
+            for orbit in &params.planets {
+                let _ = write!(line, ",{}", orbit.rv(t));
+            }
+            line.push('\n');
+            rows.push((set.epoch_bjd + t, line));
         }
-        s.push('\n');
+    }
+    rows.sort_by(|x, y| x.0.total_cmp(&y.0));
+    for (_, line) in rows {
+        s.push_str(&line);
     }
     s
 }
@@ -121,7 +142,9 @@ fn fields(line: &str) -> Vec<&str> {
     line.split(',').collect()
 }
 
-/// Reads `data_used.csv`.
+/// Reads `data_used.csv`: the points used in the fit (rows with `status` other than
+/// `used` are skipped; files without the `status` and `n_combined` columns, written
+/// before they existed, are read as all used).
 ///
 /// # Errors
 /// [`SavedError`] naming the file and, for a bad row, its line.
@@ -145,7 +168,13 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
             format!("line 1: expected the columns {}", fixed.join(",")),
         ));
     }
-    let signals: Vec<String> = header[fixed.len()..]
+    let extra = ["status", "n_combined"];
+    let first_signal = if header.len() >= fixed.len() + 2 && header[fixed.len()..][..2] == extra {
+        fixed.len() + 2
+    } else {
+        fixed.len()
+    };
+    let signals: Vec<String> = header[first_signal..]
         .iter()
         .map(|h| {
             h.strip_prefix("signal_")
@@ -176,6 +205,9 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
                     ))
                 })
         };
+        if first_signal > fixed.len() && f[fixed.len()] != "used" {
+            continue;
+        }
         points.push(Point {
             instrument: f[2].to_string(),
             time_bjd: num(3)?,
@@ -183,7 +215,7 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
             err_mps: num(5)?,
             model_mps: num(6)?,
             residual_mps: num(7)?,
-            signals_mps: (fixed.len()..f.len()).map(num).collect::<Result<_, _>>()?,
+            signals_mps: (first_signal..f.len()).map(num).collect::<Result<_, _>>()?,
         });
     }
     if points.is_empty() {

@@ -78,6 +78,7 @@ pub fn summary_text(a: &Analysis) -> String {
         a.set.baseline_d(),
         a.set.epoch_bjd
     );
+    s.push_str(&data_changes_text(a));
     let _ = writeln!(s, "\nsignal search (GLS of residuals, Baluev FAP):");
     for step in &a.search.steps {
         if let Some(p) = step.peak {
@@ -127,9 +128,11 @@ pub fn summary_text(a: &Analysis) -> String {
     for inst in post.map_or(&fit.instruments, |p| &p.instruments) {
         let _ = writeln!(
             s,
-            "  {:<16} {:>4} pts  offset {} m/s  jitter {} m/s  rms {:.2} m/s",
+            "  {:<16} {:>4} pts  span {:.1} d  median err {:.2} m/s  offset {} m/s  jitter {} m/s  rms {:.2} m/s",
             inst.name,
             inst.n_points,
+            inst.span_d,
+            inst.median_err_mps,
             format_summary(&inst.offset_mps),
             format_summary(&inst.jitter_mps),
             inst.rms_mps
@@ -179,6 +182,98 @@ pub fn summary_text(a: &Analysis) -> String {
     let extra = post.map(|p| p.warnings.as_slice()).unwrap_or_default();
     for w in a.set.warnings.iter().chain(&fit.warnings).chain(extra) {
         let _ = writeln!(s, "warning: {w}");
+    }
+    s
+}
+
+/// What was done to the data: eras, in-transit points, binning (with the unbinned fit
+/// beside the binned one when asked for) and outliers, one line each and one per point.
+fn data_changes_text(a: &Analysis) -> String {
+    let log = &a.data_log;
+    let mut s = String::new();
+    for e in &log.eras {
+        let eras: Vec<String> = e
+            .names
+            .iter()
+            .zip(&e.n_points)
+            .map(|(n, k)| format!("{n} ({k} pts)"))
+            .collect();
+        let splits: Vec<String> = e.splits_bjd.iter().map(|t| t.to_string()).collect();
+        let _ = writeln!(
+            s,
+            "eras: {} split at BJD_TDB {} into {}",
+            e.instrument,
+            splits.join(", "),
+            eras.join(", ")
+        );
+    }
+    if !log.in_transit.is_empty() {
+        let left_out = log.in_transit.iter().filter(|f| f.excluded).count();
+        let _ = writeln!(
+            s,
+            "in transit: {} point(s) inside a transit window, {} left out",
+            log.in_transit.len(),
+            left_out
+        );
+    }
+    if let Some(b) = &log.binning {
+        let _ = writeln!(
+            s,
+            "binning: {} points → {} within {} d per instrument ({} bins of several points); jitter {}",
+            b.n_before,
+            b.n_after,
+            b.window_d,
+            b.bins.len(),
+            b.jitter
+        );
+        if let Some(c) = &b.unbinned_fit {
+            let fit = &a.search.fit;
+            for (binned, unbinned) in fit.planets.iter().zip(&c.planets) {
+                let _ = writeln!(
+                    s,
+                    "  {}: K = {} m/s binned, {} m/s unbinned ({} points)",
+                    binned.label,
+                    format_summary(&binned.k_mps),
+                    format_summary(&unbinned.k_mps),
+                    c.n_points
+                );
+            }
+        }
+    }
+    let o = &log.outlier_search;
+    let action = match o.mode {
+        crate::prep::OutlierMode::Clip => "left out".to_string(),
+        crate::prep::OutlierMode::StudentT => format!(
+            "kept, Student-t likelihood with ν = {}{}",
+            o.dof.unwrap_or(f64::NAN),
+            if o.dof_profile.is_empty() {
+                ""
+            } else {
+                " (fitted)"
+            }
+        ),
+        crate::prep::OutlierMode::Keep => "kept".to_string(),
+    };
+    let found = match log.outliers.len() {
+        0 => "none flagged".to_string(),
+        n => format!("{n} flagged, {action}"),
+    };
+    let _ = writeln!(
+        s,
+        "outliers (beyond {} robust σ, {} fit(s)): {found}",
+        o.threshold_sigma, o.rounds
+    );
+    for f in &log.outliers {
+        let _ = writeln!(
+            s,
+            "  {} row {}  BJD_TDB {:.5}  {}  {:+.1} σ{}",
+            f.file,
+            f.row,
+            f.time_d,
+            f.instrument,
+            f.residual_sigma.unwrap_or(f64::NAN),
+            if f.excluded { "  left out" } else { "" }
+        );
     }
     s
 }

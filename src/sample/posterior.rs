@@ -91,6 +91,7 @@ impl PriorSet {
         let years = (set.baseline_d() / DAYS_PER_YEAR).max(1e-3);
         let epoch = set.epoch_bjd;
         let theta = &fit.theta;
+        let names = layout.names(set);
         let entries = layout
             .roles()
             .into_iter()
@@ -177,12 +178,10 @@ impl PriorSet {
                         let b = 10.0 * range.max(median_err) / years.powi(p as i32);
                         default(format!("trend_mps_per_yr{p}"), Prior::uniform(-b, b))
                     }
-                    Role::Regressor(c) => {
+                    Role::Regressor(r) => {
+                        let c = layout.regressor_target(r).0;
                         let b = 10.0 * range.max(median_err) / set.indicator_spread(c);
-                        default(
-                            format!("regressor.{}", set.indicators[c].name),
-                            Prior::uniform(-b, b),
-                        )
+                        default(names[j].clone(), Prior::uniform(-b, b))
                     }
                 }
             })
@@ -380,7 +379,8 @@ impl<'a> LogPosterior<'a> {
         {
             return f64::NEG_INFINITY;
         }
-        let mut total = 0.0;
+        // Offsets are the same in ψ as in θ.
+        let mut total = -self.layout.offset_penalty(psi, None);
         for j in 0..psi.len() {
             total += self.coordinate_ln_prior(j, psi);
             if total == f64::NEG_INFINITY {
@@ -429,6 +429,37 @@ mod tests {
     use crate::target::OrbitShape;
     use rand::{Rng, SeedableRng};
     use rand_chacha::ChaCha8Rng;
+
+    /// An offset constraint `offset(B) − offset(A) ~ N(2, 0.5²)` adds
+    /// `−½ ((Δ − 2)/0.5)²` to the log-prior (Gaussian log-density up to a constant).
+    #[test]
+    fn offset_constraint_enters_the_prior() {
+        let set = RvSet::from_columns(
+            "p",
+            0.0,
+            vec![0.0, 1.0, 2.0, 3.0],
+            vec![0.0; 4],
+            vec![1.0; 4],
+            vec![0, 1, 0, 1],
+            vec!["A".into(), "B".into()],
+        );
+        let constraint = crate::fit::OffsetPrior {
+            instruments: ["A".into(), "B".into()],
+            mean_mps: 2.0,
+            sd_mps: 0.5,
+        };
+        let layout = Layout::new(vec![], OrbitShape::Circular, 2, 0)
+            .with_offset_priors(&[constraint], &set.instruments);
+        // ψ: offset A, offset B, ln s_A, ln s_B; no prior entries.
+        let priors = PriorSet {
+            entries: vec![None; 4],
+        };
+        let post = LogPosterior::new(&set, &layout, &priors);
+        for (b, want) in [(2.0, 0.0), (3.0, -2.0), (0.5, -4.5)] {
+            let got = post.ln_prior(&[0.0, b, 0.0, 0.0]);
+            assert!((got - want).abs() < 1e-12, "offset B {b}: {got} vs {want}");
+        }
+    }
 
     /// Sampling the prior alone must give back the physical priors: with e uniform on
     /// [0, 0.9] and the jitter uniform on [0, 5], the draws of e and s have the uniform
