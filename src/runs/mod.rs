@@ -136,5 +136,5 @@ pub fn mark_latest(run_dir: &Path) -> io::Result<()> {
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
-    crate::report::write_atomic(&parent.join(LATEST), format!("{name}\n").as_bytes())
+    crate::report::write_in(parent, LATEST, format!("{name}\n").as_bytes())
 }
