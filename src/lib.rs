@@ -21,6 +21,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 pub mod audit;
+mod contain;
 pub mod data;
 pub mod derive;
 pub mod fit;

@@ -1,0 +1,54 @@
+//! Containing panics of third-party readers on corrupt input: a Parquet file with damaged
+//! metadata can make the decoder panic instead of returning an error. [`contain`] turns
+//! such a panic into an error message, and keeps the panic's own report off stderr.
+
+use std::cell::Cell;
+use std::panic::{self, AssertUnwindSafe};
+use std::sync::Once;
+
+thread_local! {
+    /// Whether this thread is inside [`contain`].
+    static CONTAINED: Cell<bool> = const { Cell::new(false) };
+}
+
+static HOOK: Once = Once::new();
+
+/// Runs `f`; a panic inside it becomes `Err` with the panic's message. The panic hook in
+/// force stays in force for every other panic.
+///
+/// # Errors
+/// The panic message when `f` panics.
+pub(crate) fn contain<T>(f: impl FnOnce() -> T) -> Result<T, String> {
+    HOOK.call_once(|| {
+        let previous = panic::take_hook();
+        panic::set_hook(Box::new(move |info| {
+            if !CONTAINED.with(Cell::get) {
+                previous(info);
+            }
+        }));
+    });
+    let outer = CONTAINED.with(|c| c.replace(true));
+    let result = panic::catch_unwind(AssertUnwindSafe(f));
+    CONTAINED.with(|c| c.set(outer));
+    result.map_err(|payload| {
+        payload
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| payload.downcast_ref::<String>().cloned())
+            .unwrap_or_else(|| "unknown failure".into())
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_panic_becomes_an_error_and_values_pass_through() {
+        assert_eq!(contain(|| 7), Ok(7));
+        let e = contain(|| -> u8 { panic!("broken {}", 3) }).unwrap_err();
+        assert_eq!(e, "broken 3");
+        let none: Option<u8> = None;
+        assert!(contain(|| none.unwrap()).unwrap_err().contains("None"));
+    }
+}
