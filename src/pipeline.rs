@@ -18,6 +18,7 @@ use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, Tra
 use crate::fit::{
     self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount, SignalTest,
 };
+use crate::limits::{Budget, BudgetReport};
 use crate::periodogram::{self, Overview, OverviewSettings, PeriodogramError};
 use crate::sample::{self, Posterior, PriorSet, Progress, SampleError, SamplerSettings};
 use crate::summary::Summary;
@@ -252,6 +253,9 @@ pub struct Analysis {
     /// The run whose solution started the search, when warm-started (set by the caller
     /// that found it; the started signals are in [`Search::warm_started`]).
     pub warm_from: Option<String>,
+    /// What the time budget left out, when the run had one (or the sampler's deadline
+    /// had passed before sampling).
+    pub budget: Option<BudgetReport>,
 }
 
 /// Search settings from a target file's settings.
@@ -312,7 +316,12 @@ pub fn run_target_from(
     warm: &[WarmPlanet],
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
+    let budget = target.settings.time_budget_s.map(Budget::new);
     let set = data::load(&target.data)?;
+    let sampler = crate::sample::SamplerSettings {
+        deadline: budget.map(|b| b.deadline()),
+        ..target.settings.sampler()
+    };
     let request = Request {
         name: target.name.clone(),
         set,
@@ -324,13 +333,24 @@ pub fn run_target_from(
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),
-        sampler: target.settings.sample.then(|| target.settings.sampler()),
+        sampler: target.settings.sample.then_some(sampler),
         priors: target.priors.clone(),
         warm: warm.to_vec(),
     };
     let mut analysis = analyse(request, progress)?;
-    analysis.periodograms = Some(periodogram_report(&analysis)?);
-    if target.settings.audit && !analysis.search.fit.planets.is_empty() {
+    let mut report = analysis.budget.take().unwrap_or_default();
+    // Whether the budget has run out before a stage; if so the stage is skipped.
+    let mut out_of_time = |stage: &str| {
+        let gone = budget.is_some_and(|b| b.exhausted());
+        if gone {
+            report.skipped.push(stage.to_string());
+        }
+        gone
+    };
+    if !out_of_time("periodogram report") {
+        analysis.periodograms = Some(periodogram_report(&analysis)?);
+    }
+    if target.settings.audit && !analysis.search.fit.planets.is_empty() && !out_of_time("audit") {
         let ctx = audit::Context {
             star: Some(&target.star),
             transits: &target.transits,
@@ -338,6 +358,15 @@ pub fn run_target_from(
         };
         let settings = audit_settings(&target.settings, Some(&target.star));
         analysis.audit = Some(audit::audit(&analysis, &ctx, &settings)?);
+    }
+    if let Some(b) = budget {
+        report.time_budget_s = b.seconds;
+        // Unconverged before max_steps: only the deadline stops the sampler there.
+        report.sampler_stopped_early = analysis.posterior.as_ref().is_some_and(|p| {
+            let d = &p.chains.diagnostics;
+            !d.converged && d.steps < sampler.max_steps
+        });
+        analysis.budget = Some(report);
     }
     Ok(analysis)
 }
@@ -451,8 +480,20 @@ pub fn analyse(
     let search = fit::search_warm(set, &known, &req.search, &warm)?;
     let signals = fit::signal_tests(set, &search, known.len())?;
 
+    let mut budget = None;
     let posterior = match &req.sampler {
         None => None,
+        Some(settings)
+            if settings
+                .deadline
+                .is_some_and(|d| std::time::Instant::now() >= d) =>
+        {
+            budget = Some(BudgetReport {
+                skipped: vec!["posterior".into()],
+                ..BudgetReport::default()
+            });
+            None
+        }
         Some(settings) => {
             let fit = &search.fit;
             let range = (
@@ -540,6 +581,7 @@ pub fn analyse(
         periodograms: None,
         audit: None,
         warm_from: None,
+        budget,
     })
 }
 

@@ -16,7 +16,7 @@ pub use batch::{
 };
 pub use changes::{Changes, PlanetChange, changes_text, compare};
 pub use epochs::{AddError, Added, add_epochs};
-pub use execute::{Completed, RunError, execute};
+pub use execute::{Completed, Overrides, RunError, execute, execute_with};
 pub use plan::{DateValue, Plan, PlanError, PlanRequest, PlanetForecast, plan, plan_svg};
 
 use std::fs;
