@@ -5,8 +5,9 @@
 //!
 //! Inputs are generated from a grammar of table and TOML pieces (so that cases reach the
 //! deeper checks) and by mutating real files (byte flips, cuts, splices). The number of
-//! cases per fuzzer is `PROPTEST_CASES` (default [`DEFAULT_CASES`], which keeps this file
-//! to well under a minute in CI); each fuzzer prints its case count and wall time.
+//! cases per fuzzer is `PROPTEST_CASES` (by default 200 to 5000 per fuzzer, which keeps
+//! this file to about half a minute in CI); each fuzzer prints its case count and wall time. The
+//! random seed is fixed unless `PROPTEST_RNG_SEED` is set.
 //! Inputs that once broke a reader are kept in `tests/hostile/` (see `tests/hostile.rs`).
 
 use std::path::{Path, PathBuf};
@@ -15,28 +16,32 @@ use std::time::Instant;
 
 use heft::data::{DataSpec, RvUnit, TimeStandard};
 use proptest::prelude::*;
-use proptest::test_runner::{Config, TestRunner};
+use proptest::test_runner::{Config, RngSeed, TestRunner};
 use serde_json::Value;
 
-/// Cases per fuzzer when `PROPTEST_CASES` is not set.
-const DEFAULT_CASES: u32 = 200;
-
-fn cases() -> u32 {
-    std::env::var("PROPTEST_CASES")
-        .ok()
-        .and_then(|v| v.parse().ok())
-        .unwrap_or(DEFAULT_CASES)
-}
-
-/// Runs `test` on `cases()` inputs from `strategy`; prints the count and time.
-fn fuzz<S: Strategy>(name: &str, strategy: S, test: impl Fn(S::Value) -> Result<(), String>)
-where
+/// Runs `test` on `PROPTEST_CASES` inputs from `strategy` (`default_cases` when unset);
+/// prints the count and time.
+fn fuzz<S: Strategy>(
+    name: &str,
+    default_cases: u32,
+    strategy: S,
+    test: impl Fn(S::Value) -> Result<(), String>,
+) where
     S::Value: std::fmt::Debug,
 {
-    let n = cases();
+    let n = std::env::var("PROPTEST_CASES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(default_cases);
+    // A fixed seed unless PROPTEST_RNG_SEED is set, so that CI runs the same cases.
+    let rng_seed = match std::env::var("PROPTEST_RNG_SEED") {
+        Ok(_) => Config::default().rng_seed,
+        Err(_) => RngSeed::Fixed(0x4845_4654),
+    };
     let mut runner = TestRunner::new(Config {
         cases: n,
         failure_persistence: None,
+        rng_seed,
         ..Config::default()
     });
     let start = Instant::now();
@@ -222,6 +227,7 @@ fn fuzz_text_tables_from_grammar() {
     let ext = prop::sample::select(vec!["csv", "tsv", "txt", "dat"]);
     fuzz(
         "text tables (grammar)",
+        2000,
         (table_text(), ext, unit_and_time()),
         |(text, ext, (unit, time))| check_load(&format!("t.{ext}"), text.as_bytes(), unit, time),
     );
@@ -232,6 +238,7 @@ fn fuzz_text_tables_mutated() {
     let files = prop::sample::select(vec!["quill.csv", "tarn.txt", "fennick.tsv"]);
     fuzz(
         "text tables (mutated demo files)",
+        2000,
         (files, mutations()),
         |(file, ms)| {
             let bytes = mutate(std::fs::read(demo(file)).unwrap(), &ms);
@@ -282,7 +289,7 @@ fn fuzz_parquet_mutated() {
         TimeStandard::default(),
     )
     .unwrap();
-    fuzz("Parquet tables (mutated)", mutations(), |ms| {
+    fuzz("Parquet tables (mutated)", 2000, mutations(), |ms| {
         let bytes = mutate(parquet_bytes().to_vec(), &ms);
         check_load(
             "p.parquet",
@@ -432,7 +439,7 @@ fn fuzz_target_files() {
         4 => edits().prop_map(|es| Err(es)),
         1 => mutations().prop_map(Ok),
     ];
-    fuzz("target files", strategy, |how| {
+    fuzz("target files", 5000, strategy, |how| {
         let text = match how {
             Err(es) => edit(&base, &es),
             Ok(ms) => String::from_utf8_lossy(&mutate(base.clone().into_bytes(), &ms)).into_owned(),
@@ -523,6 +530,7 @@ fn fuzz_saved_results_for_changes_and_warm_starts() {
     let paths = prop::collection::vec((any::<usize>(), any::<u8>()), 1..8);
     fuzz(
         "saved results (changes, warm start)",
+        5000,
         prop::collection::vec(paths, 1..4),
         |all| {
             let mut bad = good.clone();
@@ -553,6 +561,7 @@ fn fuzz_saved_run_folders_for_render() {
     let json_paths = prop::collection::vec((any::<usize>(), any::<u8>()), 1..8);
     fuzz(
         "saved run folders (render)",
+        200,
         (files, mutations(), json_paths, any::<bool>()),
         |(file, ms, choices, structured)| {
             let dir = tempfile::tempdir().unwrap();
