@@ -60,7 +60,8 @@ mod tests {
         assert_eq!(contain(|| 7), Ok(7));
         let e = contain(|| -> u8 { panic!("broken {}", 3) }).unwrap_err();
         assert_eq!(e, "broken 3");
-        let none: Option<u8> = None;
-        assert!(contain(|| none.unwrap()).unwrap_err().contains("None"));
+        let v: Vec<u8> = Vec::new();
+        let i = v.len() + 3;
+        assert!(contain(|| v[i]).unwrap_err().contains("out of bounds"));
     }
 }

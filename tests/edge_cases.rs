@@ -29,8 +29,7 @@ fn noise(i: usize) -> f64 {
 fn table(
     dir: &Path,
     name: &str,
-    n: usize,
-    span: f64,
+    (n, span): (usize, f64),
     orbit: &Orbit,
     sigma: f64,
     err: &dyn Fn(usize) -> f64,
@@ -86,8 +85,7 @@ fn period_beyond_the_time_span_is_fitted_and_flagged() {
     let f = table(
         dir.path(),
         "long.csv",
-        40,
-        120.0,
+        (40, 120.0),
         &orbit,
         1.0,
         &|_| 1.0,
@@ -108,8 +106,7 @@ fn eccentricity_near_one_and_amplitude_near_zero() {
     let f = table(
         dir.path(),
         "spiky.csv",
-        120,
-        400.0,
+        (120, 400.0),
         &orbit,
         1.0,
         &|_| 1.0,
@@ -125,8 +122,7 @@ fn eccentricity_near_one_and_amplitude_near_zero() {
     let f = table(
         dir.path(),
         "flat.csv",
-        50,
-        200.0,
+        (50, 200.0),
         &flat,
         2.0,
         &|_| 2.0,
@@ -146,8 +142,7 @@ fn awkward_instruments_and_errors() {
     let f = table(
         dir.path(),
         "two.csv",
-        40,
-        150.0,
+        (40, 150.0),
         &orbit,
         1.0,
         &|_| 1.0,
@@ -162,8 +157,7 @@ fn awkward_instruments_and_errors() {
     let a = table(
         dir.path(),
         "a.csv",
-        30,
-        150.0,
+        (30, 150.0),
         &orbit,
         1.0,
         &|_| 1.0,
@@ -186,8 +180,7 @@ fn awkward_instruments_and_errors() {
     let f = table(
         dir.path(),
         "spread.csv",
-        60,
-        200.0,
+        (60, 200.0),
         &orbit,
         0.5,
         &|i| 10f64.powi((i % 7) as i32 - 3),
@@ -207,8 +200,7 @@ fn km_per_s_declared_as_m_per_s_is_warned_about() {
     let f = table(
         dir.path(),
         "kms.csv",
-        30,
-        60.0,
+        (30, 60.0),
         &orbit,
         0.002,
         &|_| 0.003,

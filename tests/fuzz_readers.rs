@@ -436,7 +436,7 @@ fn fuzz_target_files() {
     let base = std::fs::read_to_string(demo("ostrel-12.toml")).unwrap();
     let path = demo("ostrel-12.toml");
     let strategy = prop_oneof![
-        4 => edits().prop_map(|es| Err(es)),
+        4 => edits().prop_map(Err),
         1 => mutations().prop_map(Ok),
     ];
     fuzz("target files", 5000, strategy, |how| {

@@ -45,13 +45,16 @@ fn good_rows() -> String {
         .collect()
 }
 
+/// A bad table: file name, contents, extra arguments, what the message must say.
+type Case = (&'static str, Vec<u8>, Vec<&'static str>, Vec<&'static str>);
+
 #[test]
 fn bad_rv_tables() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     let rows = good_rows();
     let head = "time,rv,rv_err\n";
-    let cases: Vec<(&str, Vec<u8>, Vec<&str>, Vec<&str>)> = vec![
+    let cases: Vec<Case> = vec![
         ("empty.csv", b"".to_vec(), vec![], vec!["no data rows"]),
         ("header-only.csv", head.into(), vec![], vec!["no data rows"]),
         (
@@ -150,7 +153,7 @@ fn bad_rv_tables() {
         ),
         (
             "five-headerless.csv",
-            format!("{}", rows.replace(",1.0\n", ",1.0,A,7\n")).into(),
+            rows.replace(",1.0\n", ",1.0,A,7\n").into(),
             vec![],
             vec!["row 1", "this one has 5 columns"],
         ),
