@@ -201,16 +201,18 @@ fn bad_rv_tables() {
     );
 }
 
-/// Found by the Parquet fuzzer: damaged page data makes polars' decoder ask for an
-/// impossible amount of memory, and the allocation failure aborts the process, which Rust
-/// cannot catch. Not fixed yet; this test shows the failure when run with `--ignored`.
+/// Found by the Parquet fuzzer: a page header with a negative value count made polars'
+/// decoder ask for an impossible amount of memory, and the allocation failure ended the
+/// process (exit 134). The page headers are now checked before decoding.
 #[test]
-#[ignore = "known failure: polars aborts the process on this damaged Parquet file"]
-fn damaged_parquet_that_aborts_the_decoder() {
+fn damaged_parquet_page_header() {
     let path = hostile("huge-allocation.parquet");
     refused(
         &["fit", path.to_str().unwrap()],
-        &["huge-allocation.parquet", "damaged Parquet file"],
+        &[
+            "huge-allocation.parquet",
+            "damaged Parquet file: page value count -92 out of range",
+        ],
     );
 }
 

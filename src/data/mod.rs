@@ -29,12 +29,14 @@ use std::str::FromStr;
 
 mod error;
 mod load;
+mod parquet_check;
 mod read;
 mod time;
 mod validate;
 
 pub use error::{DataError, DataErrorKind};
 pub use load::load;
+pub(crate) use parquet_check::check as check_parquet;
 pub use time::{TimeScale, TimeStandard, TimeStandardError};
 
 /// Unit of the RV and RV-error columns of an input file.
