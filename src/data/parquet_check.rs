@@ -224,3 +224,55 @@ fn check_chunk(bytes: &[u8], end: usize, cm: &Value, file_rows: i64) -> Result<(
     }
     Ok(())
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A file of `footer` bytes as the footer, with the PAR1 marks and length.
+    fn file(footer: &[u8]) -> Vec<u8> {
+        let mut b = b"PAR1".to_vec();
+        b.extend_from_slice(footer);
+        b.extend_from_slice(&(footer.len() as u32).to_le_bytes());
+        b.extend_from_slice(b"PAR1");
+        b
+    }
+
+    #[test]
+    fn damaged_footers_are_errors() {
+        assert!(check(b"PAR1PAR1").unwrap_err().contains("PAR1"));
+        // Footer length beyond the file.
+        let mut f = file(&[0]);
+        let n = f.len();
+        f[n - 8] = 0xff;
+        assert!(check(&f).unwrap_err().contains("footer length"));
+        // An empty struct: no row count.
+        assert!(check(&file(&[0])).unwrap_err().contains("row count"));
+        // Field 3 (i64, compact type 6) = -1 by zigzag, then stop.
+        assert!(
+            check(&file(&[0x36, 0x01, 0]))
+                .unwrap_err()
+                .contains("negative")
+        );
+        // Nested structs beyond the depth limit.
+        let deep: Vec<u8> = std::iter::repeat_n(0x1c, 40).collect();
+        assert!(check(&file(&deep)).unwrap_err().contains("nested"));
+        // A list claiming more elements than there are bytes.
+        assert!(
+            check(&file(&[0x19, 0xf5, 0xff, 0xff, 0x03]))
+                .unwrap_err()
+                .contains("list")
+        );
+    }
+
+    #[test]
+    fn the_row_group_list_is_required() {
+        // num_rows = 5 (zigzag 10), row_groups = empty list of structs.
+        assert!(check(&file(&[0x36, 0x0a, 0x19, 0x0c, 0])).is_ok());
+        assert!(
+            check(&file(&[0x36, 0x0a, 0]))
+                .unwrap_err()
+                .contains("row groups")
+        );
+    }
+}
