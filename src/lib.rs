@@ -21,9 +21,11 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 pub mod audit;
+mod contain;
 pub mod data;
 pub mod derive;
 pub mod fit;
+pub mod limits;
 pub mod model;
 pub mod orbit;
 pub mod periodogram;

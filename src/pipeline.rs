@@ -18,6 +18,7 @@ use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, Tra
 use crate::fit::{
     self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount, SignalTest,
 };
+use crate::limits::{Budget, BudgetReport};
 use crate::model::Noise;
 use crate::periodogram::{self, Overview, OverviewSettings, PeriodogramError};
 use crate::prep::{self, DataLog, OutlierMode, OutlierPolicy, PrepError};
@@ -264,6 +265,9 @@ pub struct Analysis {
     pub warm_from: Option<String>,
     /// Everything done to the data between reading and the final fit.
     pub data_log: DataLog,
+    /// What the time budget left out, when the run had one (or the sampler's deadline
+    /// had passed before sampling).
+    pub budget: Option<BudgetReport>,
 }
 
 /// Search settings from a target file's settings.
@@ -324,6 +328,7 @@ pub fn run_target_from(
     warm: &[WarmPlanet],
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
+    let budget = target.settings.time_budget_s.map(Budget::new);
     let raw = data::load(&target.data)?;
     let preparation = target.preparation();
     let (set, log) = prep::prepare(&raw, &preparation)?;
@@ -335,6 +340,10 @@ pub fn run_target_from(
         search.options.regressors_per_instrument =
             target.settings.indicator_terms == IndicatorTerms::PerInstrument;
     }
+    let sampler = crate::sample::SamplerSettings {
+        deadline: budget.map(|b| b.deadline()),
+        ..target.settings.sampler()
+    };
     let request = Request {
         name: target.name.clone(),
         set,
@@ -346,7 +355,7 @@ pub fn run_target_from(
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),
-        sampler: target.settings.sample.then(|| target.settings.sampler()),
+        sampler: target.settings.sample.then_some(sampler),
         priors: target.priors.clone(),
         warm: warm.to_vec(),
         outliers: target.settings.outlier_policy(),
@@ -369,8 +378,19 @@ pub fn run_target_from(
             });
         }
     }
-    analysis.periodograms = Some(periodogram_report(&analysis)?);
-    if target.settings.audit && !analysis.search.fit.planets.is_empty() {
+    let mut report = analysis.budget.take().unwrap_or_default();
+    // Whether the budget has run out before a stage; if so the stage is skipped.
+    let mut out_of_time = |stage: &str| {
+        let gone = budget.is_some_and(|b| b.exhausted());
+        if gone {
+            report.skipped.push(stage.to_string());
+        }
+        gone
+    };
+    if !out_of_time("periodogram report") {
+        analysis.periodograms = Some(periodogram_report(&analysis)?);
+    }
+    if target.settings.audit && !analysis.search.fit.planets.is_empty() && !out_of_time("audit") {
         let ctx = audit::Context {
             star: Some(&target.star),
             transits: &target.transits,
@@ -378,6 +398,15 @@ pub fn run_target_from(
         };
         let settings = audit_settings(&target.settings, Some(&target.star));
         analysis.audit = Some(audit::audit(&analysis, &ctx, &settings)?);
+    }
+    if let Some(b) = budget {
+        report.time_budget_s = b.seconds;
+        // Unconverged before max_steps: only the deadline stops the sampler there.
+        report.sampler_stopped_early = analysis.posterior.as_ref().is_some_and(|p| {
+            let d = &p.chains.diagnostics;
+            !d.converged && d.steps < sampler.max_steps
+        });
+        analysis.budget = Some(report);
     }
     Ok(analysis)
 }
@@ -503,8 +532,20 @@ pub fn analyse(
     let set = &set;
     let signals = fit::signal_tests(set, &search, known.len())?;
 
+    let mut budget = None;
     let posterior = match &req.sampler {
         None => None,
+        Some(settings)
+            if settings
+                .deadline
+                .is_some_and(|d| std::time::Instant::now() >= d) =>
+        {
+            budget = Some(BudgetReport {
+                skipped: vec!["posterior".into()],
+                ..BudgetReport::default()
+            });
+            None
+        }
         Some(settings) => {
             let fit = &search.fit;
             let range = (
@@ -593,6 +634,7 @@ pub fn analyse(
         audit: None,
         warm_from: None,
         data_log: log,
+        budget,
     })
 }
 

@@ -239,6 +239,12 @@ pub struct Settings {
     /// (one coefficient per indicator) or `per-instrument` (one per indicator and
     /// instrument).
     pub indicator_terms: IndicatorTerms,
+    /// Time budget of a run, seconds (default none): when it runs out the sampler stops
+    /// early and later stages are skipped; results.json says what was left out.
+    pub time_budget_s: Option<f64>,
+    /// Refuse to start a run whose estimated peak memory exceeds this, MB (default none;
+    /// see [`crate::runs::memory_estimate_mb`]).
+    pub max_memory_mb: Option<f64>,
 }
 
 /// Linear decorrelation terms in the activity indicators.
@@ -288,6 +294,8 @@ impl Default for Settings {
             bin_window_d: None,
             bin_compare: false,
             indicator_terms: IndicatorTerms::None,
+            time_budget_s: None,
+            max_memory_mb: None,
         }
     }
 }
@@ -814,6 +822,33 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         return Err(invalid(
             "settings.max_steps",
             format!("need at least 1000, got {}", s.max_steps),
+        ));
+    }
+
+    if let Some(b) = s.time_budget_s {
+        positive("settings.time_budget_s", b)?;
+    }
+    if let Some(m) = s.max_memory_mb {
+        positive("settings.max_memory_mb", m)?;
+    }
+    use crate::limits::{
+        MAX_DRAWS, MAX_ENSEMBLES, MAX_OVERSAMPLE, MAX_SIGNALS, MAX_STEPS, MAX_WALKERS,
+    };
+    for (key, value, cap) in [
+        ("settings.draws", s.draws, MAX_DRAWS),
+        ("settings.walkers", s.walkers, MAX_WALKERS),
+        ("settings.max_steps", s.max_steps, MAX_STEPS),
+        ("settings.ensembles", s.ensembles, MAX_ENSEMBLES),
+        ("settings.max_signals", s.max_signals, MAX_SIGNALS),
+    ] {
+        if value > cap {
+            return Err(invalid(key, format!("{value} is above the limit of {cap}")));
+        }
+    }
+    if s.oversample > MAX_OVERSAMPLE {
+        return Err(invalid(
+            "settings.oversample",
+            format!("{} is above the limit of {MAX_OVERSAMPLE}", s.oversample),
         ));
     }
 

@@ -1,6 +1,6 @@
 //! Command-line layer: one file per command; this file dispatches and maps failures to
 //! exit codes (0 success, 1 internal failure, 2 bad input or usage, 3 not converged,
-//! 4 audit not robust).
+//! 4 audit not robust; 3 also when a time budget cut the run short).
 
 use std::process::ExitCode;
 
@@ -157,6 +157,21 @@ pub fn print_results(analysis: &heft::pipeline::Analysis, json: bool) -> Result<
         heft::report::summary_text(analysis)
     };
     emit(&text, json)?;
+    if let Some(b) = analysis.budget.as_ref().filter(|b| b.cut_short()) {
+        let mut parts = Vec::new();
+        if b.sampler_stopped_early {
+            parts.push("the sampler was stopped early".to_string());
+        }
+        if !b.skipped.is_empty() {
+            parts.push(format!("skipped: {}", b.skipped.join(", ")));
+        }
+        note(&format!(
+            "warning: the time budget of {} s ran out; {}",
+            b.time_budget_s,
+            parts.join("; ")
+        ));
+        return Ok(ExitCode::from(3));
+    }
     if let Some(p) = &analysis.posterior
         && !p.chains.diagnostics.converged
     {

@@ -17,15 +17,30 @@ pub struct RunArgs {
     /// new folder under `runs/` beside the target file.
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
+    /// Time budget in seconds (replaces the target's `time_budget_s`): when it runs out
+    /// the sampler stops early and later stages are skipped; the results say so (exit 3).
+    #[arg(long, value_name = "SECONDS", value_parser = positive_seconds)]
+    time_budget_s: Option<f64>,
     /// Print results as JSON instead of the summary.
     #[arg(long)]
     json: bool,
 }
 
+/// A positive, finite number of seconds.
+fn positive_seconds(s: &str) -> Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if v.is_finite() && v > 0.0 => Ok(v),
+        _ => Err(format!("must be a positive number of seconds, got '{s}'")),
+    }
+}
+
 /// Runs the command.
 pub fn run(args: &RunArgs) -> Result<ExitCode, Failure> {
     let (bar, mut progress) = super::sampler_progress();
-    let done = runs::execute(&args.target, args.out.as_deref(), &mut progress);
+    let overrides = runs::Overrides {
+        time_budget_s: args.time_budget_s,
+    };
+    let done = runs::execute_with(&args.target, args.out.as_deref(), overrides, &mut progress);
     bar.finish_and_clear();
     let done = done.map_err(|e| {
         if e.is_input() {

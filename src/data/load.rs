@@ -41,9 +41,11 @@ pub fn load(specs: &[DataSpec]) -> Result<RvSet, DataError> {
     let mut files = Vec::with_capacity(specs.len());
     for spec in specs {
         let table = read::read_table(&spec.path)?;
-        let data = validate::interpret(spec, &table)?;
+        let mut data = validate::interpret(spec, &table)?;
         validate::check_times(&spec.path, &spec.time, &data)?;
         validate::check_unit(&spec.path, spec.unit, &data)?;
+        let unit_warning = validate::unit_warning(&spec.path, spec.unit, &data);
+        data.warnings.extend(unit_warning);
         files.push(data);
     }
     let set = merge(specs, &files);

@@ -29,12 +29,14 @@ use std::str::FromStr;
 
 mod error;
 mod load;
+mod parquet_check;
 mod read;
 mod time;
 mod validate;
 
 pub use error::{DataError, DataErrorKind};
 pub use load::load;
+pub(crate) use parquet_check::check as check_parquet;
 pub use time::{TimeScale, TimeStandard, TimeStandardError};
 pub(crate) use validate::median;
 
@@ -230,12 +232,16 @@ impl RvSet {
         self.instruments.len()
     }
 
-    /// Time span of the data, days (0 for fewer than two points).
+    /// Time span of the data, days (0 for fewer than two points); the points need not be
+    /// in time order.
     pub fn baseline_d(&self) -> f64 {
-        match (self.time_d.first(), self.time_d.last()) {
-            (Some(a), Some(b)) => b - a,
-            _ => 0.0,
-        }
+        let (lo, hi) = self
+            .time_d
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &t| {
+                (lo.min(t), hi.max(t))
+            });
+        if hi > lo { hi - lo } else { 0.0 }
     }
 
     /// Standard deviation of indicator column `c` over the points that have a value (1 when

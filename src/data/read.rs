@@ -8,7 +8,6 @@
 //! a [`Table`] of named raw columns with the 1-based line (or row) number of each row;
 //! turning cells into numbers, with errors that name the row, is left to the caller.
 
-use std::fs::File;
 use std::io::Cursor;
 use std::path::Path;
 use std::sync::Arc;
@@ -207,10 +206,19 @@ pub(crate) fn read_text(path: &Path, text: &str) -> Result<Table, DataError> {
 
 /// Reads a Parquet file; rows are numbered from 1.
 fn read_parquet(path: &Path) -> Result<Table, DataError> {
-    let file = File::open(path).map_err(|e| DataError::whole_file(path, DataErrorKind::Io(e)))?;
-    let df = ParquetReader::new(file)
-        .finish()
-        .map_err(|e| DataError::whole_file(path, DataErrorKind::Table(e.to_string())))?;
+    let bytes =
+        std::fs::read(path).map_err(|e| DataError::whole_file(path, DataErrorKind::Io(e)))?;
+    super::check_parquet(&bytes).map_err(|e| {
+        DataError::whole_file(
+            path,
+            DataErrorKind::Table(format!("damaged Parquet file: {e}")),
+        )
+    })?;
+    // A damaged file can make the decoder panic rather than fail: that is an error too.
+    let df = crate::contain::contain(|| ParquetReader::new(Cursor::new(bytes)).finish())
+        .map_err(|e| format!("damaged Parquet file (the decoder failed: {e})"))
+        .and_then(|r| r.map_err(|e| e.to_string()))
+        .map_err(|e| DataError::whole_file(path, DataErrorKind::Table(e)))?;
     if df.height() == 0 {
         return Err(DataError::whole_file(path, DataErrorKind::Empty));
     }

@@ -398,6 +398,40 @@ pub(crate) fn check_unit(path: &Path, unit: RvUnit, data: &FileData) -> Result<(
     Ok(())
 }
 
+/// Below this median `rv_err` (m/s) a file declared in m/s gets a warning: the most
+/// precise spectrographs reach about 0.1 m/s (common practice), while a km/s file read as
+/// m/s has errors of 0.0005–0.01.
+pub(crate) const MPS_PLAUSIBLE_ERR: f64 = 0.05;
+/// Above this median |rv| (km/s) a file declared in km/s gets a warning: stars move
+/// relative to the Sun by at most several hundred km/s (common practice), while an m/s
+/// file read as km/s has systemic velocities of thousands.
+pub(crate) const KMS_PLAUSIBLE_RV: f64 = 1000.0;
+
+/// A warning (prefixed with the file) when the values are implausible for the declared
+/// unit but not clearly in the other one (those are errors, see [`check_unit`]).
+pub(crate) fn unit_warning(path: &Path, unit: RvUnit, data: &FileData) -> Option<String> {
+    let file = path.display();
+    match unit {
+        RvUnit::MetresPerSecond => {
+            let med = median(&data.err);
+            (med < MPS_PLAUSIBLE_ERR).then(|| {
+                format!(
+                    "{file}: the median rv_err is {med:.2e} m/s, below what any spectrograph reaches (about 0.1 m/s at best): if the file is in km/s, declare unit = km/s"
+                )
+            })
+        }
+        RvUnit::KilometresPerSecond => {
+            let abs: Vec<f64> = data.rv.iter().map(|v| v.abs()).collect();
+            let med = median(&abs);
+            (med > KMS_PLAUSIBLE_RV).then(|| {
+                format!(
+                    "{file}: the median |rv| is {med:.0} km/s, faster than any star moves: if the file is in m/s, declare unit = m/s"
+                )
+            })
+        }
+    }
+}
+
 /// Median of finite values (NaN for none).
 pub(crate) fn median(values: &[f64]) -> f64 {
     let mut v: Vec<f64> = values.iter().copied().filter(|x| x.is_finite()).collect();

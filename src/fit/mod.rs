@@ -330,8 +330,12 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
     }
     let starts_len = starts.len();
     let mut best: Option<(Vec<f64>, f64)> = None;
+    let mut non_finite = 0;
     for s in starts {
         let (theta, value) = optimize::minimise(&objective, &s, &scale, 4);
+        if !value.is_finite() {
+            non_finite += 1;
+        }
         if best.as_ref().is_none_or(|b| value < b.1) {
             best = Some((theta, value));
         }
@@ -345,10 +349,25 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
     if !value.is_finite() {
         return Err(FitError::NoFiniteLikelihood);
     }
-    Ok(Fit {
+    let mut fit = Fit {
         starts: n_starts,
         ..finish(set, layout, theta, options)
-    })
+    };
+    let span = set.baseline_d();
+    for p in &fit.planets {
+        if p.period_d.value > span {
+            fit.warnings.push(format!(
+                "planet {}: period {:.4} d is longer than the time span of the data ({span:.1} d); its period, eccentricity and amplitude are poorly constrained",
+                p.label, p.period_d.value
+            ));
+        }
+    }
+    if non_finite > 0 {
+        fit.warnings.push(format!(
+            "{non_finite} of {starts_len} optimiser starts ended without a finite likelihood and were discarded; the fit is the best of the others"
+        ));
+    }
+    Ok(fit)
 }
 
 /// θ from the specs, offsets at each instrument's weighted mean of the data minus the

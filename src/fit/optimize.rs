@@ -21,14 +21,29 @@ fn unscale(u: &[f64], origin: &[f64], scale: &[f64]) -> Vec<f64> {
         .collect()
 }
 
+/// Most objective evaluations in one round: a line search that cannot make progress
+/// (e.g. among overflowing likelihoods) is stopped here rather than running on.
+const MAX_EVALUATIONS: usize = 200_000;
+
 struct Scaled<'a> {
     objective: &'a Objective<'a>,
     origin: Vec<f64>,
     scale: Vec<f64>,
     best: &'a RefCell<(f64, Vec<f64>)>,
+    evaluations: std::cell::Cell<usize>,
 }
 
 impl Scaled<'_> {
+    /// Counts an evaluation; an error once the round has used [`MAX_EVALUATIONS`].
+    fn count(&self, n: usize) -> Result<(), Error> {
+        let used = self.evaluations.get() + n;
+        self.evaluations.set(used);
+        if used > MAX_EVALUATIONS {
+            return Err(Error::msg("evaluation limit of the round reached"));
+        }
+        Ok(())
+    }
+
     fn eval(&self, u: &[f64]) -> f64 {
         let theta = unscale(u, &self.origin, &self.scale);
         let v = self.objective.value(&theta);
@@ -44,6 +59,7 @@ impl CostFunction for Scaled<'_> {
     type Param = Vec<f64>;
     type Output = f64;
     fn cost(&self, u: &Self::Param) -> Result<f64, Error> {
+        self.count(1)?;
         Ok(self.eval(u))
     }
 }
@@ -52,6 +68,7 @@ impl Gradient for Scaled<'_> {
     type Param = Vec<f64>;
     type Gradient = Vec<f64>;
     fn gradient(&self, u: &Self::Param) -> Result<Vec<f64>, Error> {
+        self.count(2 * u.len())?;
         let theta = unscale(u, &self.origin, &self.scale);
         let steps: Vec<f64> = self.scale.iter().map(|s| GRAD_STEP * s).collect();
         let g = self.objective.gradient(&theta, &steps);
@@ -62,7 +79,9 @@ impl Gradient for Scaled<'_> {
 /// Minimises `objective` from `start` (θ), with `scale` the natural size of each entry.
 /// Returns the best θ seen and its objective value. A line-search failure ends a round
 /// early but never loses the best point found; rounds repeat (at most `rounds`) from the
-/// best point until the value improves by less than 1e-7.
+/// best point until the value improves by less than 1e-7. A start without a finite value
+/// is returned as it is (there is nothing to descend from), and a round ends after
+/// [`MAX_EVALUATIONS`] evaluations.
 pub fn minimise(
     objective: &Objective,
     start: &[f64],
@@ -71,6 +90,9 @@ pub fn minimise(
 ) -> (Vec<f64>, f64) {
     let mut theta = start.to_vec();
     let mut value = objective.value(&theta);
+    if !value.is_finite() {
+        return (theta, value);
+    }
     for _ in 0..rounds {
         let best = RefCell::new((value, theta.clone()));
         let problem = Scaled {
@@ -78,6 +100,7 @@ pub fn minimise(
             origin: theta.clone(),
             scale: scale.to_vec(),
             best: &best,
+            evaluations: std::cell::Cell::new(0),
         };
         let solver = LBFGS::new(MoreThuenteLineSearch::new(), 10)
             .with_tolerance_grad(1e-5)

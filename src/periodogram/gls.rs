@@ -35,33 +35,59 @@ struct Sums {
     cs: f64,
 }
 
+/// When `D = CC SS − CS²` is below this fraction of `CC SS`, the centred cosine and sine
+/// columns are parallel to rounding (two distinct epochs; even sampling at a multiple of
+/// its rate) and the 2 × 2 solve would return rounding noise: the fit then uses the
+/// larger column alone, the limit of the exact fit as `D → 0`.
+const PARALLEL: f64 = 1e-9;
+
 impl Sums {
     fn det(&self) -> f64 {
         self.cc * self.ss - self.cs * self.cs
     }
 
-    /// `p = (SS YC² + CC YS² − 2 CS YC YS)/(YY D)`, clamped to [0, 1] against rounding.
-    #[inline]
-    fn power(&self) -> f64 {
-        let d = self.det();
-        if !(d > 0.0) || !(self.yy > 0.0) {
-            return 0.0;
-        }
-        let num = self.ss * self.yc * self.yc + self.cc * self.ys * self.ys
-            - 2.0 * self.cs * self.yc * self.ys;
-        (num / (self.yy * d)).clamp(0.0, 1.0)
+    /// Whether the cosine and sine columns can be told apart (see [`PARALLEL`]).
+    fn independent(&self) -> bool {
+        self.det() > PARALLEL * self.cc * self.ss
     }
 
-    /// Coefficients of `a cos + b sin`: `a = (YC SS − YS CS)/D`, `b = (YS CC − YC CS)/D`.
-    fn coefficients(&self) -> (f64, f64) {
-        let d = self.det();
-        if !(d > 0.0) {
-            return (0.0, 0.0);
+    /// `p = (SS YC² + CC YS² − 2 CS YC YS)/(YY D)`, clamped to [0, 1] against rounding;
+    /// with parallel columns, `YC²/(YY CC)` or `YS²/(YY SS)` of the larger one.
+    #[inline]
+    fn power(&self) -> f64 {
+        if !(self.yy > 0.0) {
+            return 0.0;
         }
-        (
-            (self.yc * self.ss - self.ys * self.cs) / d,
-            (self.ys * self.cc - self.yc * self.cs) / d,
-        )
+        let p = if self.independent() {
+            let num = self.ss * self.yc * self.yc + self.cc * self.ys * self.ys
+                - 2.0 * self.cs * self.yc * self.ys;
+            num / (self.yy * self.det())
+        } else if self.cc >= self.ss && self.cc > 0.0 {
+            self.yc * self.yc / (self.yy * self.cc)
+        } else if self.ss > 0.0 {
+            self.ys * self.ys / (self.yy * self.ss)
+        } else {
+            0.0
+        };
+        p.clamp(0.0, 1.0)
+    }
+
+    /// Coefficients of `a cos + b sin`: `a = (YC SS − YS CS)/D`, `b = (YS CC − YC CS)/D`;
+    /// with parallel columns, the larger one's alone.
+    fn coefficients(&self) -> (f64, f64) {
+        if self.independent() {
+            let d = self.det();
+            (
+                (self.yc * self.ss - self.ys * self.cs) / d,
+                (self.ys * self.cc - self.yc * self.cs) / d,
+            )
+        } else if self.cc >= self.ss && self.cc > 0.0 {
+            (self.yc / self.cc, 0.0)
+        } else if self.ss > 0.0 {
+            (0.0, self.ys / self.ss)
+        } else {
+            (0.0, 0.0)
+        }
     }
 }
 

@@ -49,7 +49,7 @@ pub enum PeriodogramError {
     Range(String),
     /// Grid too large.
     #[error(
-        "a grid of {0} frequencies is larger than the {MAX_GRID} allowed; use fewer points (--nfreq), a narrower range or a coarser step"
+        "a grid of {0} frequencies is larger than the {MAX_GRID} allowed; use fewer points (--nfreq), a narrower range or a coarser step (in a target file: a larger period_min_d or a smaller oversample)"
     )]
     TooLarge(usize),
     /// Fast-method tolerance out of range.

@@ -5,7 +5,7 @@ use std::path::Path;
 
 use polars::prelude::*;
 
-use super::files::write_atomic;
+use super::files::write_in;
 use crate::pipeline::Analysis;
 
 /// Columns of the draws table. With posterior draws: `ensemble`, `walker`, `step`,
@@ -83,13 +83,13 @@ pub fn write_draws(a: &Analysis, dir: &Path, csv: bool) -> io::Result<()> {
     ParquetWriter::new(&mut bytes)
         .finish(&mut df)
         .map_err(io::Error::other)?;
-    write_atomic(&dir.join("draws.parquet"), &bytes)?;
+    write_in(dir, "draws.parquet", &bytes)?;
     if csv {
         let mut bytes = Vec::new();
         CsvWriter::new(&mut bytes)
             .finish(&mut df)
             .map_err(io::Error::other)?;
-        write_atomic(&dir.join("draws.csv"), &bytes)?;
+        write_in(dir, "draws.csv", &bytes)?;
     }
     Ok(())
 }

@@ -4,6 +4,35 @@ use std::fs;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 
+/// Environment variable that makes [`write_atomic`] fail on purpose, so that tests can
+/// simulate a full disk or a read-only folder on any machine: `NAME[@BYTES][:KIND]`, where
+/// `NAME` is a file name (or `*` for every file), `BYTES` how many bytes reach the
+/// temporary file before the failure (default 0) and `KIND` `full` (default: no space
+/// left) or `denied` (permission denied).
+pub const FAULT_ENV: &str = "HEFT_INJECT_WRITE_FAULT";
+
+/// The failure [`FAULT_ENV`] asks for when writing a file named `name`: bytes written
+/// first, and the error.
+fn injected_fault(name: &str) -> Option<(usize, io::Error)> {
+    let spec = std::env::var(FAULT_ENV).ok()?;
+    let (head, kind) = spec.split_once(':').unwrap_or((spec.as_str(), "full"));
+    let (file, bytes) = head.split_once('@').unwrap_or((head, "0"));
+    if file != "*" && file != name {
+        return None;
+    }
+    let error = match kind {
+        "denied" => io::Error::new(
+            io::ErrorKind::PermissionDenied,
+            "permission denied (injected fault)",
+        ),
+        _ => io::Error::new(
+            io::ErrorKind::StorageFull,
+            "no space left on device (injected fault)",
+        ),
+    };
+    Some((bytes.parse().unwrap_or(0), error))
+}
+
 /// Writes `bytes` to `path` through a temporary file in the same folder and a rename, so
 /// a reader never sees a half-written file and an earlier file survives a failed write.
 ///
@@ -22,8 +51,13 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> io::Result<()> {
         name.to_string_lossy(),
         std::process::id()
     ));
+    let fault = injected_fault(&name.to_string_lossy());
     let result = (|| {
         let mut f = fs::File::create(&tmp)?;
+        if let Some((written, error)) = fault {
+            f.write_all(&bytes[..written.min(bytes.len())])?;
+            return Err(error);
+        }
         f.write_all(bytes)?;
         f.sync_all()?;
         fs::rename(&tmp, path)
@@ -32,6 +66,16 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> io::Result<()> {
         let _ = fs::remove_file(&tmp);
     }
     result
+}
+
+/// [`write_atomic`] of file `name` in `dir`, its error message naming the file.
+///
+/// # Errors
+/// As [`write_atomic`].
+pub(crate) fn write_in(dir: &Path, name: &str, bytes: &[u8]) -> io::Result<()> {
+    let path = dir.join(name);
+    write_atomic(&path, bytes)
+        .map_err(|e| io::Error::new(e.kind(), format!("{}: {e}", path.display())))
 }
 
 /// Creates the folder a run writes into.

@@ -185,6 +185,9 @@ pub fn results_json(a: &Analysis) -> Value {
     if let (Some(audit), Value::Object(map)) = (&a.audit, &mut doc) {
         map.insert("audit".into(), json!(audit));
     }
+    if let (Some(budget), Value::Object(map)) = (&a.budget, &mut doc) {
+        map.insert("time_budget".into(), json!(budget));
+    }
     if let (Some(from), Value::Object(map)) = (&a.warm_from, &mut doc) {
         map.insert(
             "warm_start".into(),

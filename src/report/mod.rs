@@ -22,7 +22,8 @@ pub use audit_plot::audit_svg;
 pub use corner::corner_svg;
 pub use density::density_markdown;
 pub use draws::{draw_columns, write_draws};
-pub use files::{create_run_dir, write_atomic};
+pub(crate) use files::write_in;
+pub use files::{FAULT_ENV, create_run_dir, write_atomic};
 pub use json::{SCHEMA, audit_json, results_json};
 pub use mass_radius::{PlanetCloud, mass_radius_svg};
 pub use pgram::{overview_svg, periodogram_meta, periodogram_svg};
@@ -46,7 +47,8 @@ use crate::pipeline::Analysis;
 /// draws also `draws.parquet` (and `draws.csv` when `draws_csv`).
 ///
 /// # Errors
-/// I/O errors; files already written stay complete (each is written atomically).
+/// I/O errors, naming the file; the incomplete run folder is then removed, so no
+/// half-written run looks complete and earlier runs and `LATEST` are untouched.
 pub fn write_run(
     analysis: &Analysis,
     manifest: &crate::runs::Manifest,
@@ -55,26 +57,44 @@ pub fn write_run(
     draws_csv: bool,
 ) -> std::io::Result<PathBuf> {
     let dir = create_run_dir(out, target_file)?;
-    let manifest = serde_json::to_vec_pretty(manifest).map_err(std::io::Error::other)?;
-    write_atomic(&dir.join("manifest.json"), &manifest)?;
-    write_draws(analysis, &dir, draws_csv)?;
-    write_atomic(&dir.join(POINTS_FILE), points_csv(analysis).as_bytes())?;
-    let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
-    write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;
-    if let Some(md) = density_markdown(analysis) {
-        write_atomic(&dir.join("density.md"), md.as_bytes())?;
-    }
-    if let Some(ov) = &analysis.periodograms {
-        write_atomic(&dir.join("periodograms.csv"), ov.table().as_bytes())?;
-        let peaks =
-            serde_json::to_vec_pretty(&periodogram_meta(ov)).map_err(std::io::Error::other)?;
-        write_atomic(&dir.join("periodogram.json"), &peaks)?;
-    }
-    // results.json marks a complete run; the report is drawn from the saved files.
-    write_atomic(&dir.join("results.json"), &json)?;
-    render(&dir).map_err(std::io::Error::other)?;
-    if out.is_none() {
-        crate::runs::mark_latest(&dir)?;
-    }
+    let fill = || -> std::io::Result<()> {
+        let manifest = serde_json::to_vec_pretty(manifest).map_err(std::io::Error::other)?;
+        write_in(&dir, "manifest.json", &manifest)?;
+        write_draws(analysis, &dir, draws_csv)?;
+        write_in(&dir, POINTS_FILE, points_csv(analysis).as_bytes())?;
+        let json =
+            serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
+        write_in(&dir, "summary.txt", summary_text(analysis).as_bytes())?;
+        if let Some(md) = density_markdown(analysis) {
+            write_in(&dir, "density.md", md.as_bytes())?;
+        }
+        if let Some(ov) = &analysis.periodograms {
+            write_in(&dir, "periodograms.csv", ov.table().as_bytes())?;
+            let peaks =
+                serde_json::to_vec_pretty(&periodogram_meta(ov)).map_err(std::io::Error::other)?;
+            write_in(&dir, "periodogram.json", &peaks)?;
+        }
+        // results.json marks a complete run; the report is drawn from the saved files.
+        write_in(&dir, "results.json", &json)?;
+        render(&dir).map_err(std::io::Error::other)?;
+        if out.is_none() {
+            crate::runs::mark_latest(&dir)?;
+        }
+        Ok(())
+    };
+    fill().map_err(|e| {
+        // No half-written run may look complete: the folder goes, whatever it holds.
+        let fate = match std::fs::remove_dir_all(&dir) {
+            Ok(()) => "removed".to_string(),
+            Err(r) => format!("left behind ({r}); delete it"),
+        };
+        std::io::Error::new(
+            e.kind(),
+            format!(
+                "{e}; the incomplete run folder {} was {fate}",
+                dir.display()
+            ),
+        )
+    })?;
     Ok(dir)
 }

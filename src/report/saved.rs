@@ -295,10 +295,13 @@ pub fn read_json(path: &Path) -> Result<Value, SavedError> {
 /// # Errors
 /// [`SavedError`] for an unreadable file.
 pub fn read_draws(path: &Path) -> Result<Vec<(String, Vec<f64>)>, SavedError> {
-    let file = fs::File::open(path).map_err(|e| SavedError::new(path, e.to_string()))?;
-    let df = ParquetReader::new(file)
-        .finish()
-        .map_err(|e| SavedError::new(path, format!("not readable as Parquet: {e}")))?;
+    let bytes = fs::read(path).map_err(|e| SavedError::new(path, e.to_string()))?;
+    crate::data::check_parquet(&bytes)
+        .map_err(|e| SavedError::new(path, format!("damaged Parquet file: {e}")))?;
+    let df = crate::contain::contain(|| ParquetReader::new(std::io::Cursor::new(bytes)).finish())
+        .map_err(|e| format!("damaged Parquet file (the decoder failed: {e})"))
+        .and_then(|r| r.map_err(|e| format!("not readable as Parquet: {e}")))
+        .map_err(|e| SavedError::new(path, e))?;
     Ok(df
         .columns()
         .iter()

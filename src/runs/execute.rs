@@ -22,6 +22,18 @@ pub enum RunError {
     /// The analysis failed (bad data, failed fit).
     #[error(transparent)]
     Pipeline(#[from] PipelineError),
+    /// The run would need more memory than `max_memory_mb` allows.
+    #[error(
+        "{path}: settings.max_memory_mb: the run needs an estimated {need_mb:.0} MB, more than the {cap_mb} MB allowed; lower draws, walkers or max_steps, or raise the limit"
+    )]
+    Memory {
+        /// The target file.
+        path: PathBuf,
+        /// Estimated peak memory, MB.
+        need_mb: f64,
+        /// The limit, MB.
+        cap_mb: f64,
+    },
     /// The run folder could not be written; earlier runs are untouched.
     #[error("writing the run folder: {0}")]
     Write(io::Error),
@@ -43,6 +55,13 @@ pub struct Completed {
     pub dir: PathBuf,
 }
 
+/// Settings given for one run that replace the target file's.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct Overrides {
+    /// Time budget, seconds (replaces `settings.time_budget_s`).
+    pub time_budget_s: Option<f64>,
+}
+
 /// Runs `target_file` end to end into `out` (or a new folder under `runs/`); `progress`
 /// hears from the sampler.
 ///
@@ -53,7 +72,35 @@ pub fn execute(
     out: Option<&Path>,
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Completed, RunError> {
-    let target = target::load(target_file)?;
+    execute_with(target_file, out, Overrides::default(), progress)
+}
+
+/// As [`execute`], with `overrides` replacing the target file's settings (the manifest
+/// records the settings in force).
+///
+/// # Errors
+/// As [`execute`]; also [`RunError::Memory`] when the estimated peak memory exceeds
+/// `settings.max_memory_mb`.
+pub fn execute_with(
+    target_file: &Path,
+    out: Option<&Path>,
+    overrides: Overrides,
+    progress: &mut dyn FnMut(&Progress),
+) -> Result<Completed, RunError> {
+    let mut target = target::load(target_file)?;
+    if let Some(b) = overrides.time_budget_s {
+        target.settings.time_budget_s = Some(b);
+    }
+    if let Some(cap_mb) = target.settings.max_memory_mb {
+        let need_mb = super::memory_estimate_mb(&target);
+        if need_mb > cap_mb {
+            return Err(RunError::Memory {
+                path: target_file.to_path_buf(),
+                need_mb,
+                cap_mb,
+            });
+        }
+    }
     if let Some(out) = out
         && out.exists()
         && std::fs::read_dir(out)

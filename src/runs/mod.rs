@@ -16,7 +16,7 @@ pub use batch::{
 };
 pub use changes::{Changes, PlanetChange, changes_text, compare};
 pub use epochs::{AddError, Added, add_epochs};
-pub use execute::{Completed, RunError, execute};
+pub use execute::{Completed, Overrides, RunError, execute, execute_with};
 pub use plan::{DateValue, Plan, PlanError, PlanRequest, PlanetForecast, plan, plan_svg};
 
 use std::fs;
@@ -136,5 +136,5 @@ pub fn mark_latest(run_dir: &Path) -> io::Result<()> {
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
-    crate::report::write_atomic(&parent.join(LATEST), format!("{name}\n").as_bytes())
+    crate::report::write_in(parent, LATEST, format!("{name}\n").as_bytes())
 }

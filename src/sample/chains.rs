@@ -36,6 +36,10 @@ pub struct SamplerSettings {
     pub period_modes: bool,
     /// Seed of every random draw.
     pub seed: u64,
+    /// Stop at this time even if not converged (checked every 100 steps; the run then
+    /// ends with a final check as at `max_steps`). `None`: no time limit.
+    #[serde(skip)]
+    pub deadline: Option<std::time::Instant>,
 }
 
 impl Default for SamplerSettings {
@@ -50,6 +54,7 @@ impl Default for SamplerSettings {
             stretch_a: super::ensemble::STRETCH_A,
             period_modes: true,
             seed: 1,
+            deadline: None,
         }
     }
 }
@@ -149,7 +154,8 @@ struct History {
 
 /// Runs `starts.len()` ensembles (each from its starting walkers) on the log-density
 /// `ln_p` until every parameter's kept chain is `min_tau_multiple` autocorrelation times
-/// long and its R̂ across ensembles is below `max_rhat`, or `max_steps` is reached.
+/// long and its R̂ across ensembles is below `max_rhat`, or `max_steps` is reached, or
+/// the `deadline` passes.
 ///
 /// Burn-in is `burn_tau_multiple` × the largest τ (measured on the latter half of the
 /// chain, at most half the chain). At most `max_draws` draws are returned, evenly spaced
@@ -215,11 +221,15 @@ where
                 thin *= 2;
             }
         }
+        let mut out_of_time = false;
         if step % 100 == 0 {
             last.step = step;
             progress(&last);
+            out_of_time = settings
+                .deadline
+                .is_some_and(|d| std::time::Instant::now() >= d);
         }
-        let last_step = step == settings.max_steps;
+        let last_step = step == settings.max_steps || out_of_time;
         if step >= next_check || last_step {
             next_check = (step + FIRST_CHECK).max(step + step / 10);
             let check = assess(
@@ -236,7 +246,7 @@ where
             last.tau_multiple = Some(check.tau_multiple);
             last.max_rhat = check.max_rhat.is_finite().then_some(check.max_rhat);
             progress(&last);
-            let done = check.converged;
+            let done = check.converged || out_of_time;
             verdict = Some(check);
             if done {
                 break;
@@ -255,8 +265,13 @@ where
             settings.max_rhat
         )
     } else {
+        let why = if step < settings.max_steps {
+            "stopped by the time budget"
+        } else {
+            "not converged"
+        };
         format!(
-            "not converged after {step} steps: kept chain {:.1} τ long (need {}), max R̂ {:.4} (need < {})",
+            "{why} after {step} steps: kept chain {:.1} τ long (need {}), max R̂ {:.4} (need < {})",
             diagnostics.tau_multiple,
             settings.min_tau_multiple,
             diagnostics.max_rhat,
