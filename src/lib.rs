@@ -24,6 +24,7 @@ pub mod audit;
 pub mod data;
 pub mod derive;
 pub mod fit;
+pub mod gp;
 pub mod model;
 pub mod orbit;
 pub mod periodogram;
