@@ -254,8 +254,9 @@ pub struct Analysis {
     pub warm_from: Option<String>,
 }
 
-/// Search settings from a target file's settings.
-pub fn search_settings(s: &Settings) -> SearchSettings {
+/// Search settings from a target file's settings and star (its rotation period centres
+/// the activity model's rotation prior).
+pub fn search_settings(s: &Settings, star: &Star) -> SearchSettings {
     SearchSettings {
         period_min_d: s.period_min_d,
         period_max_d: s.period_max_d,
@@ -265,6 +266,10 @@ pub fn search_settings(s: &Settings) -> SearchSettings {
         options: FitOptions {
             shape: s.orbit,
             trend: s.trend,
+            activity: s.activity,
+            rotation_d: star
+                .rotation_d
+                .map(|p| crate::gp::rotation_prior(p, star.rotation_err_d)),
             ..FitOptions::default()
         },
     }
@@ -320,7 +325,7 @@ pub fn run_target_from(
         transits: &target.transits,
         periods: Vec::new(),
         fix_periods: false,
-        search: search_settings(&target.settings),
+        search: search_settings(&target.settings, &target.star),
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),

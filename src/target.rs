@@ -205,6 +205,9 @@ pub struct Settings {
     /// Also sample the posterior of the baseline and of every model variant in the audit
     /// (default false: maximum likelihood; each posterior costs as much as the run's own).
     pub audit_posterior: bool,
+    /// Stellar-activity noise model: `none` (default), `quasiperiodic` or `oscillator`
+    /// (Gaussian processes; need `star.rotation_d`, which centres the rotation prior).
+    pub activity: crate::gp::Activity,
     /// Start `heft run` from the latest complete run's solution (default false: every run
     /// starts afresh, so identical inputs give identical results).
     pub warm_start: bool,
@@ -235,6 +238,7 @@ impl Default for Settings {
             audit: true,
             audit_posterior: false,
             warm_start: false,
+            activity: crate::gp::Activity::None,
         }
     }
 }
@@ -703,6 +707,16 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
         return Err(invalid(
             "settings.max_steps",
             format!("need at least 1000, got {}", s.max_steps),
+        ));
+    }
+
+    if s.activity != crate::gp::Activity::None && star.rotation_d.is_none() {
+        return Err(invalid(
+            "settings.activity",
+            format!(
+                "the {:?} activity model needs the rotation period star.rotation_d",
+                s.activity
+            ),
         ));
     }
 

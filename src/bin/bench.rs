@@ -5,7 +5,7 @@
 //! throughput (targets per minute).
 //!
 //! Run with `cargo run --release --bin bench [-- DEMO.toml]` (default
-//! `data-demo/ostrel-12.toml`).
+//! `data-demo/ostrel-12.toml`); `-- --gp` runs the GP solver timings alone.
 //!
 //! On Linux the figures are also given per second on a CPU (this thread's or the
 //! process's CPU time from `/proc`), which other work on the machine inflates far less
@@ -236,7 +236,9 @@ fn gp_seconds(n: usize, solver: Solver, min_seconds: f64) -> (f64, Option<f64>) 
 /// in turn at each N, and their ratio. The dense solver stops at N = 4000 (its matrix
 /// alone is 8 N² bytes: 800 MB at N = 10 000).
 fn gp_scaling() {
-    println!("GP log-likelihood, two oscillator terms (ms per evaluation on a CPU where known, else wall):");
+    println!(
+        "GP log-likelihood, two oscillator terms (ms per evaluation on a CPU where known, else wall):"
+    );
     let ms = |(w, c): (f64, Option<f64>)| 1e3 * c.unwrap_or(w);
     let mut semi_per_point = Vec::new();
     for n in [100, 300, 1000, 2000, 4000, 10_000] {
@@ -372,6 +374,10 @@ fn main() {
     let demo = std::env::args()
         .nth(1)
         .unwrap_or_else(|| "data-demo/ostrel-12.toml".into());
+    if demo == "--gp" {
+        println!("load average at start {}", load_average());
+        return gp_scaling();
+    }
     let profile = if cfg!(debug_assertions) {
         "dev profile: heft at opt-level 1, dependencies at 3"
     } else {

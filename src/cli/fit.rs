@@ -3,6 +3,7 @@
 use std::process::ExitCode;
 
 use heft::fit::{FitOptions, SearchSettings, SignalCount};
+use heft::gp::{Activity, rotation_prior};
 use heft::pipeline::{self, Request};
 use heft::target::{OrbitShape, Settings, Star};
 
@@ -39,6 +40,17 @@ pub struct FitArgs {
     /// diagnostics; exit status 3 if it does not converge).
     #[arg(long)]
     sample: bool,
+    /// Stellar-activity noise model: none (white jitter only), quasiperiodic or
+    /// oscillator (Gaussian processes; need --rotation-d).
+    #[arg(long, default_value = "none")]
+    activity: Activity,
+    /// Stellar rotation period, days: centres the activity model's rotation-period prior
+    /// (and the audit tests a signal there).
+    #[arg(long)]
+    rotation_d: Option<f64>,
+    /// 1σ uncertainty of the rotation period, days (default for the prior: 10 % of it).
+    #[arg(long, requires = "rotation_d")]
+    rotation_err_d: Option<f64>,
     /// Seed of the sampler and the Monte Carlo draws.
     #[arg(long, default_value_t = 1)]
     seed: u64,
@@ -57,6 +69,28 @@ impl FitArgs {
             Some(m) => Ok(Some(Star::from_mass(m, self.mstar_err.max(0.0)))),
             None => Ok(None),
         }
+    }
+
+    /// The rotation period and its 1σ (0 when not given), days.
+    ///
+    /// # Errors
+    /// A non-positive period or a negative uncertainty.
+    pub fn rotation(&self) -> Result<Option<(f64, f64)>, Failure> {
+        let Some(p) = self.rotation_d else {
+            if self.activity != Activity::None {
+                return Err(Failure::Input(anyhow::anyhow!(
+                    "--activity needs the rotation period: --rotation-d P"
+                )));
+            }
+            return Ok(None);
+        };
+        let err = self.rotation_err_d.unwrap_or(0.0);
+        if !(p.is_finite() && p > 0.0 && err.is_finite() && err >= 0.0) {
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--rotation-d must be positive and --rotation-err-d zero or positive, got {p} and {err}"
+            )));
+        }
+        Ok(Some((p, err)))
     }
 
     /// The periods given with --period.
@@ -86,6 +120,7 @@ impl FitArgs {
             Some(n) => SignalCount::Exactly(n.max(self.periods.len())),
             None => SignalCount::UpTo(defaults.max_signals.max(self.periods.len())),
         };
+        let rotation = self.rotation()?;
         let set = self.input.load()?;
         Ok(Request {
             name: self
@@ -113,6 +148,8 @@ impl FitArgs {
                         OrbitShape::Eccentric
                     },
                     trend: usize::from(self.trend),
+                    activity: self.activity,
+                    rotation_d: rotation.map(|(p, e)| rotation_prior(p, e)),
                     ..FitOptions::default()
                 },
             },

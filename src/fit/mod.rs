@@ -24,6 +24,7 @@ use rand_distr::StandardNormal;
 use serde::Serialize;
 
 use crate::data::RvSet;
+use crate::gp::{Activity, ActivityLayout, Points, Solver};
 use crate::model::Params;
 use crate::orbit::periastron_from_conjunction;
 use crate::summary::{Summary, wrap_pi};
@@ -72,6 +73,11 @@ pub struct FitOptions {
     /// A linear term in each of the first this many indicator columns of the data
     /// (default 0).
     pub regressors: usize,
+    /// Stellar-activity noise model (default none).
+    pub activity: Activity,
+    /// Rotation-period prior `(mean, sd)` in days of the activity model (required by
+    /// every model but `none`).
+    pub rotation_d: Option<(f64, f64)>,
 }
 
 impl Default for FitOptions {
@@ -82,6 +88,8 @@ impl Default for FitOptions {
             max_ecc: 0.95,
             shared_jitter: false,
             regressors: 0,
+            activity: Activity::None,
+            rotation_d: None,
         }
     }
 }
@@ -149,6 +157,9 @@ pub struct Fit {
     pub trend: Vec<Summary>,
     /// Indicator coefficients, m/s per indicator unit (same order as the data's columns).
     pub regressors: Vec<Summary>,
+    /// Activity hyperparameters by key ([`Activity::keys`]), physical units; errors
+    /// from the curvature in their logarithms (empty without a GP).
+    pub activity: Vec<(String, Summary)>,
     /// Model options used.
     pub options: FitOptions,
     /// Findings worth showing the user.
@@ -202,6 +213,28 @@ impl Fit {
             r.rv_mps[j] -= planets + p.trend_rv(t) + p.regressors_rv(set, j);
         }
         r
+    }
+
+    /// The activity GP's conditional mean and variance (m/s, m²/s²) at times `at_d`
+    /// (days from the epoch), given the residuals of this fit's mean model on `set`;
+    /// `None` without a GP or when its covariance cannot be factorised.
+    pub fn activity_prediction(&self, set: &RvSet, at_d: &[f64]) -> Option<(Vec<f64>, Vec<f64>)> {
+        let kernel = self.layout.kernel(&self.theta)?;
+        let white = layout::white_variances(&self.params, set);
+        let scale = vec![1.0; set.len()];
+        Points {
+            time_d: &set.time_d,
+            white: &white,
+            scale: &scale,
+        }
+        .predict(
+            &kernel,
+            Solver::Auto,
+            &self.params.residuals(set),
+            at_d,
+            &vec![1.0; at_d.len()],
+        )
+        .ok()
     }
 
     /// `n` draws of θ from the Gaussian approximation `N(θ̂, C)` of the likelihood.
@@ -275,6 +308,30 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
     if options.shared_jitter {
         layout = layout.with_shared_jitter();
     }
+    if options.activity != Activity::None {
+        let rotation = options.rotation_d.ok_or_else(|| {
+            FitError::Start(
+                "the activity model needs a rotation period: give --rotation-d or star.rotation_d"
+                    .into(),
+            )
+        })?;
+        if !(rotation.0 > 0.0
+            && rotation.1 > 0.0
+            && rotation.0.is_finite()
+            && rotation.1.is_finite())
+        {
+            return Err(FitError::Start(format!(
+                "rotation period {} ± {} d",
+                rotation.0, rotation.1
+            )));
+        }
+        layout = layout.with_activity(ActivityLayout::new(
+            options.activity,
+            rotation,
+            centred_sd(set),
+            set.baseline_d(),
+        ));
+    }
     if layout.len() >= set.len() {
         return Err(FitError::TooFewPoints {
             params: layout.len(),
@@ -328,6 +385,24 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         starts: n_starts,
         ..finish(set, layout, theta, options)
     })
+}
+
+/// Standard deviation of the RVs about each instrument's mean, m/s.
+fn centred_sd(set: &RvSet) -> f64 {
+    let n = set.n_instruments();
+    let mut sum = vec![0.0; n];
+    let mut count = vec![0.0; n];
+    for i in 0..set.len() {
+        sum[set.instrument[i]] += set.rv_mps[i];
+        count[set.instrument[i]] += 1.0;
+    }
+    let ss: f64 = (0..set.len())
+        .map(|i| {
+            let k = set.instrument[i];
+            (set.rv_mps[i] - sum[k] / count[k]).powi(2)
+        })
+        .sum();
+    (ss / set.len().max(1) as f64).sqrt()
 }
 
 /// θ from the specs, offsets at each instrument's weighted mean of the data minus the
@@ -406,7 +481,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let params = layout
         .params(&theta, options.max_ecc)
         .expect("the optimum has finite parameters");
-    let log_likelihood = params.log_likelihood(set);
+    let log_likelihood = layout.log_likelihood(&theta, options.max_ecc, set);
     let sigma_of = |q: &dyn Fn(&[f64]) -> f64| -> f64 {
         let g = objective::gradient(q, &theta, &h);
         let g = DVector::from_vec(g);
@@ -502,6 +577,24 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
                 .expect("regressors are free"))
         })
         .collect();
+    let activity = layout
+        .activity_keys()
+        .iter()
+        .enumerate()
+        .map(|(q, key)| {
+            let j = layout
+                .index(Role::Activity(q))
+                .expect("activity hyperparameters are free");
+            let (ln, sd) = (theta[j], covariance[(j, j)].max(0.0).sqrt());
+            let value = ln.exp();
+            let summary = Summary {
+                minus: value - (ln - sd).exp(),
+                plus: (ln + sd).exp() - value,
+                ..Summary::exact(value)
+            };
+            (key.to_string(), summary)
+        })
+        .collect();
     for (i, p) in params.planets.iter().enumerate() {
         if p.ecc() >= options.max_ecc - 1e-6 {
             warnings.push(format!(
@@ -524,6 +617,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
         instruments,
         trend,
         regressors,
+        activity,
         options: *options,
         warnings,
         starts: 1,

@@ -1,9 +1,11 @@
 //! The function the fit minimises: −ln L plus the Gaussian constraints of the planet
-//! specs and a smooth penalty on eccentricities above the cap.
+//! specs, a smooth penalty on eccentricities above the cap and, with an activity GP, its
+//! rotation-period prior and hyperparameter bounds.
 
 use crate::data::RvSet;
 
-use super::layout::{Layout, Role};
+use super::layout::{Layout, Role, white_variances};
+use crate::gp::{Points, Solver};
 use crate::model::DAYS_PER_YEAR;
 
 /// Weight of the quadratic penalty `W (e − e_max)²` on eccentricities above the cap.
@@ -23,15 +25,16 @@ pub struct Objective<'a> {
 impl Objective<'_> {
     /// Negative log-likelihood only (no constraints, no penalties); +∞ for invalid θ.
     pub fn neg_log_likelihood(&self, theta: &[f64]) -> f64 {
-        match self.layout.params(theta, self.max_ecc) {
-            Some(p) => -p.log_likelihood(self.set),
-            None => f64::INFINITY,
-        }
+        -self.layout.log_likelihood(theta, self.max_ecc, self.set)
     }
 
     /// The minimised function; +∞ for invalid θ.
     pub fn value(&self, theta: &[f64]) -> f64 {
-        let mut total = self.neg_log_likelihood(theta);
+        let mut total = match &self.layout.activity {
+            Some(a) => a.penalty(&self.layout.activity_values(theta)),
+            None => 0.0,
+        };
+        total += self.neg_log_likelihood(theta);
         for (i, spec) in self.layout.planets.iter().enumerate() {
             let [p, _, ec, es, tc] = self.layout.planet_elements(theta, i);
             let excess = ec.hypot(es) - self.max_ecc;
@@ -52,7 +55,9 @@ impl Objective<'_> {
     /// constraints and penalty; for planet elements, `∂f/∂m_i` times forward differences of
     /// that planet's RV curve alone (steps `steps`), so one gradient costs about one
     /// likelihood evaluation per planet parameter rather than two full evaluations per
-    /// parameter. Zeros for invalid θ.
+    /// parameter. With an activity GP, `∂f/∂m_i = −(K⁻¹r)_i` (Rasmussen & Williams 2006,
+    /// eq. 5.9 with ∂K/∂m = 0) and the jitters and hyperparameters take central
+    /// differences of the whole objective. Zeros for invalid θ.
     pub fn gradient(&self, theta: &[f64], steps: &[f64]) -> Vec<f64> {
         let (layout, set) = (self.layout, self.set);
         let mut grad = vec![0.0; theta.len()];
@@ -68,6 +73,7 @@ impl Objective<'_> {
         // ∂f/∂m_i = −r_i/V_i, and ∂f/∂s_k = Σ s (1/V − r²/V²) over instrument k.
         let mut dfdm = vec![0.0; n];
         let mut dfds = vec![0.0; set.n_instruments()];
+        let mut residuals = vec![0.0; n];
         for i in 0..n {
             let k = set.instrument[i];
             let t = set.time_d[i];
@@ -80,13 +86,41 @@ impl Objective<'_> {
             let v = set.err_mps[i] * set.err_mps[i] + s * s;
             dfdm[i] = -r / v;
             dfds[k] += 1.0 / v - r * r / (v * v);
+            residuals[i] = r;
         }
+        let kernel = layout.kernel(theta);
+        if let Some(kernel) = &kernel {
+            let white = white_variances(&params, set);
+            let scale = vec![1.0; n];
+            let points = Points {
+                time_d: &set.time_d,
+                white: &white,
+                scale: &scale,
+            };
+            let Ok(factor) = points.factor(kernel, Solver::Auto) else {
+                return grad;
+            };
+            for (d, a) in dfdm.iter_mut().zip(factor.solve(&residuals)) {
+                *d = -a;
+            }
+        }
+        // Central differences with steps 100 × the forward ones (closer to the
+        // cube root of the rounding error, in scaled units).
+        let by_difference = |j: usize| {
+            let h = 100.0 * steps[j];
+            let mut x = theta.to_vec();
+            x[j] = theta[j] + h;
+            let up = self.value(&x);
+            x[j] = theta[j] - h;
+            (up - self.value(&x)) / (2.0 * h)
+        };
         for (j, role) in layout.roles().into_iter().enumerate() {
             grad[j] = match role {
                 Role::Offset(k) => (0..n)
                     .filter(|&i| set.instrument[i] == k)
                     .map(|i| dfdm[i])
                     .sum(),
+                Role::Jitter(_) | Role::Activity(_) if kernel.is_some() => by_difference(j),
                 Role::Jitter(g) => {
                     theta[j]
                         * (0..set.n_instruments())

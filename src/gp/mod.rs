@@ -9,9 +9,11 @@
 //! each point (error² + jitter², m²/s²), `s` a per-point amplitude scale (1 unless each
 //! instrument has its own GP amplitude) and `k` a [`Kernel`].
 
+pub mod activity;
 pub mod kernel;
 pub mod semiseparable;
 
+pub use activity::{Activity, ActivityLayout, ROTATION_SD_FRACTION, rotation_prior};
 pub use kernel::{Kernel, Term};
 pub use semiseparable::SemiseparableFactor;
 

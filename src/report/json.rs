@@ -76,6 +76,22 @@ fn model_block(a: &Analysis) -> Value {
     })
 }
 
+/// The `activity` block: the noise model, its rotation prior and its hyperparameters
+/// (from the draws with a posterior, else the fit); `None` without a GP.
+fn activity_block(fit: &Fit, post: Option<&Posterior>) -> Option<Value> {
+    let a = fit.layout.activity.as_ref()?;
+    let estimates = post.map_or(&fit.activity, |p| &p.activity);
+    let mut parameters = serde_json::Map::new();
+    for (key, s) in estimates {
+        parameters.insert(key.clone(), json!(s));
+    }
+    Some(json!({
+        "model": a.model,
+        "rotation_prior_d": {"mean": a.rotation.0, "sd": a.rotation.1},
+        "parameters": parameters,
+    }))
+}
+
 /// The whole results document. With posterior draws, planets, instruments and trend come
 /// from the draws, and `posterior` and `diagnostics` are added.
 pub fn results_json(a: &Analysis) -> Value {
@@ -166,6 +182,9 @@ pub fn results_json(a: &Analysis) -> Value {
     }
     if let (Some(audit), Value::Object(map)) = (&a.audit, &mut doc) {
         map.insert("audit".into(), json!(audit));
+    }
+    if let (Some(block), Value::Object(map)) = (activity_block(fit, post), &mut doc) {
+        map.insert("activity".into(), block);
     }
     if let (Some(from), Value::Object(map)) = (&a.warm_from, &mut doc) {
         map.insert(

@@ -5,13 +5,15 @@
 //! Sampling vector ψ, in the order of the fit's θ ([`Layout`]): per planet `P` [d]
 //! (unless fixed), `K` [m/s], `√e cos ω`, `√e sin ω`, `Tc` [d from the reference epoch];
 //! per instrument the offset [m/s]; per instrument `ln s` (s = jitter in m/s); the trend
-//! coefficients [m/s/yr^k].
+//! coefficients [m/s/yr^k]; the indicator coefficients; and the natural logarithm of each
+//! activity hyperparameter.
 //!
 //! # Jacobians
 //! Priors are densities of the physical quantities. The map (e, ω) → (√e cos ω,
 //! √e sin ω) has Jacobian determinant 1/2 (constant), so a prior p(e) with ω uniform on
 //! [0, 2π) is the density p(e) in ψ up to a constant. For s = exp(ψ) the density in ψ is
-//! p(s) · s. Every other coordinate is the physical quantity itself.
+//! p(s) · s, and likewise for each activity hyperparameter x = exp(ψ). Every other
+//! coordinate is the physical quantity itself.
 
 use super::SampleError;
 use super::prior::Prior;
@@ -65,7 +67,10 @@ impl PriorSet {
     ///   peak-to-peak range;
     /// - jitter: uniform on [0, s_max], s_max = the larger of the instrument's
     ///   peak-to-peak range, 10 × its median error and 3 ŝ;
-    /// - trend order k: uniform on ±10 R / (span in years)^k.
+    /// - trend order k: uniform on ±10 R / (span in years)^k;
+    /// - activity hyperparameters: log-uniform on their bounds
+    ///   ([`crate::gp::ActivityLayout::new`]), the rotation period Gaussian (the fit's
+    ///   rotation prior) cut at its bounds.
     pub fn defaults(set: &RvSet, fit: &Fit, period_range_d: (f64, f64)) -> PriorSet {
         let layout = &fit.layout;
         let n_inst = set.n_instruments();
@@ -183,6 +188,23 @@ impl PriorSet {
                             format!("regressor.{}", set.indicators[c].name),
                             Prior::uniform(-b, b),
                         )
+                    }
+                    Role::Activity(q) => {
+                        let a = layout.activity.as_ref().expect("activity roles have a GP");
+                        let parameter = format!("activity.{}", a.model.keys()[q]);
+                        let (lo, hi) = a.bounds[q];
+                        if q == crate::gp::Activity::ROTATION {
+                            let (m, sd) = a.rotation;
+                            Some(PriorEntry {
+                                parameter,
+                                prior: Prior::gaussian(m, sd, Some((lo, hi)))
+                                    .expect("rotation priors are checked by the fit"),
+                                source: "rotation",
+                                shift: 0.0,
+                            })
+                        } else {
+                            default(parameter, Prior::log_uniform(lo, hi))
+                        }
                     }
                 }
             })
@@ -333,7 +355,7 @@ impl<'a> LogPosterior<'a> {
             Role::ECosW(_) => entry
                 .prior
                 .ln_density(psi[j] * psi[j] + psi[j + 1] * psi[j + 1]),
-            Role::Jitter(_) => entry.prior.ln_density(psi[j].exp()) + psi[j],
+            Role::Jitter(_) | Role::Activity(_) => entry.prior.ln_density(psi[j].exp()) + psi[j],
             _ => entry.prior.ln_density(psi[j] + entry.shift),
         }
     }
@@ -360,10 +382,8 @@ impl<'a> LogPosterior<'a> {
 
     /// Log-likelihood at ψ (−∞ for invalid values).
     pub fn ln_likelihood(&self, psi: &[f64]) -> f64 {
-        match self.layout.params(&self.to_theta(psi), 1.0) {
-            Some(p) => p.log_likelihood(self.set),
-            None => f64::NEG_INFINITY,
-        }
+        self.layout
+            .log_likelihood(&self.to_theta(psi), 1.0, self.set)
     }
 
     /// Log-posterior (up to a constant) at ψ; −∞ outside the priors or for NaN.

@@ -1,0 +1,190 @@
+//! The stellar-activity noise models an RV fit can use, their hyperparameters (fitted as
+//! natural logarithms), bounds, starting values and the rotation-period prior.
+
+use serde::{Deserialize, Serialize};
+
+use super::{Kernel, Term};
+
+/// Noise model of the RV residuals beyond the white errors and jitters.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default, Deserialize, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Activity {
+    /// White errors and per-instrument jitter only.
+    #[default]
+    None,
+    /// One quasi-periodic GP term ([`Term::QuasiPeriodic`]); hyperparameters
+    /// `amplitude_mps`, `evolution_d`, `rotation_d`, `smoothness`.
+    QuasiPeriodic,
+    /// Two oscillator terms ([`Term::Oscillator`]) at the rotation period and at half of
+    /// it, with one quality factor; hyperparameters `amplitude_mps` (at the rotation
+    /// period), `amplitude_half_mps` (at half of it), `rotation_d`, `quality`.
+    Oscillator,
+}
+
+impl std::str::FromStr for Activity {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Activity, String> {
+        match s {
+            "none" => Ok(Activity::None),
+            "quasiperiodic" => Ok(Activity::QuasiPeriodic),
+            "oscillator" => Ok(Activity::Oscillator),
+            _ => Err(format!(
+                "unknown activity model `{s}`: use none, quasiperiodic or oscillator"
+            )),
+        }
+    }
+}
+
+impl Activity {
+    /// Hyperparameter keys (units in the names), in θ order; empty for `None`.
+    pub fn keys(self) -> &'static [&'static str] {
+        match self {
+            Activity::None => &[],
+            Activity::QuasiPeriodic => {
+                &["amplitude_mps", "evolution_d", "rotation_d", "smoothness"]
+            }
+            Activity::Oscillator => &[
+                "amplitude_mps",
+                "amplitude_half_mps",
+                "rotation_d",
+                "quality",
+            ],
+        }
+    }
+
+    /// Position of the rotation period among the hyperparameters.
+    pub const ROTATION: usize = 2;
+
+    /// The kernel of hyperparameters `values` (physical units, in [`Activity::keys`]
+    /// order); `None` for the white model.
+    pub fn kernel(self, values: &[f64]) -> Option<Kernel> {
+        let terms = match (self, values) {
+            (Activity::QuasiPeriodic, &[h, l, p, w]) => vec![Term::QuasiPeriodic {
+                amplitude_mps: h,
+                evolution_d: l,
+                period_d: p,
+                smoothness: w,
+            }],
+            (Activity::Oscillator, &[a1, a2, p, q]) => vec![
+                Term::Oscillator {
+                    amplitude_mps: a1,
+                    period_d: p,
+                    quality: q,
+                },
+                Term::Oscillator {
+                    amplitude_mps: a2,
+                    period_d: 0.5 * p,
+                    quality: q,
+                },
+            ],
+            _ => return None,
+        };
+        Some(Kernel { terms })
+    }
+}
+
+/// An activity model fitted to one data set: its hyperparameters' bounds and starting
+/// values (physical units, [`Activity::keys`] order) and the Gaussian prior on the
+/// rotation period.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ActivityLayout {
+    /// The model (not `None`).
+    pub model: Activity,
+    /// `(lo, hi)` of each hyperparameter.
+    pub bounds: Vec<(f64, f64)>,
+    /// Starting value of each hyperparameter.
+    pub start: Vec<f64>,
+    /// Rotation-period prior `(mean, sd)`, days.
+    pub rotation: (f64, f64),
+}
+
+/// Fraction of the rotation period used as its prior's standard deviation when none is
+/// given (a choice of heft's: photometric rotation periods of active stars are typically
+/// known to several per cent).
+pub const ROTATION_SD_FRACTION: f64 = 0.1;
+
+/// The rotation-period prior `(mean, sd)` in days for a period `p_d` with 1σ `err_d`
+/// (a non-positive `err_d` means unknown: [`ROTATION_SD_FRACTION`] of the period).
+pub fn rotation_prior(p_d: f64, err_d: f64) -> (f64, f64) {
+    if err_d > 0.0 {
+        (p_d, err_d)
+    } else {
+        (p_d, ROTATION_SD_FRACTION * p_d)
+    }
+}
+
+/// Weight of the quadratic wall at the hyperparameter bounds, per (ln unit)².
+pub const BOUND_PENALTY: f64 = 1e6;
+
+impl ActivityLayout {
+    /// Bounds and starts for data of standard deviation `rv_sd_mps` (about the
+    /// instruments' means) over `baseline_d` days, rotation prior `rotation = (mean, sd)`.
+    ///
+    /// Bounds: amplitudes 0.01 m/s to 10 × the data's standard deviation (at least 1 m/s);
+    /// rotation period within a factor 2 of the prior mean; evolution timescale from half
+    /// the rotation period (active regions live at least that long) to 10 × the baseline;
+    /// smoothness 0.1 to 10; quality 0.55 to 1000.
+    pub fn new(
+        model: Activity,
+        rotation: (f64, f64),
+        rv_sd_mps: f64,
+        baseline_d: f64,
+    ) -> ActivityLayout {
+        let p = rotation.0;
+        let amp = (0.01, (10.0 * rv_sd_mps).max(1.0));
+        let amp_start = (0.7 * rv_sd_mps).clamp(0.02, amp.1 / 2.0);
+        let per = (0.5 * p, 2.0 * p);
+        let (bounds, start) = match model {
+            Activity::None => (vec![], vec![]),
+            Activity::QuasiPeriodic => (
+                vec![
+                    amp,
+                    (0.5 * p, (10.0 * baseline_d).max(5.0 * p)),
+                    per,
+                    (0.1, 10.0),
+                ],
+                vec![amp_start, 2.0 * p, p, 0.5],
+            ),
+            Activity::Oscillator => (
+                vec![amp, amp, per, (0.55, 1000.0)],
+                vec![amp_start, 0.5 * amp_start, p, 5.0],
+            ),
+        };
+        ActivityLayout {
+            model,
+            bounds,
+            start,
+            rotation,
+        }
+    }
+
+    /// `values` moved into their bounds (the model is evaluated there; [`Self::penalty`]
+    /// charges the excess).
+    pub fn clamp(&self, values: &[f64]) -> Vec<f64> {
+        values
+            .iter()
+            .zip(&self.bounds)
+            .map(|(v, &(lo, hi))| v.clamp(lo, hi))
+            .collect()
+    }
+
+    /// `−ln` of the rotation prior (up to a constant) at hyperparameters `values`, plus
+    /// [`BOUND_PENALTY`] × (ln of the factor by which a value leaves its bounds)², a
+    /// smooth wall that keeps the optimiser's line searches finite.
+    pub fn penalty(&self, values: &[f64]) -> f64 {
+        let walls: f64 = values
+            .iter()
+            .zip(&self.bounds)
+            .map(|(v, &(lo, hi))| {
+                let excess = (v / hi).ln().max((lo / v).ln()).max(0.0);
+                BOUND_PENALTY * excess * excess
+            })
+            .sum();
+        let (m, sd) = self.rotation;
+        let p = values[Activity::ROTATION].clamp(
+            self.bounds[Activity::ROTATION].0,
+            self.bounds[Activity::ROTATION].1,
+        );
+        walls + 0.5 * ((p - m) / sd).powi(2)
+    }
+}

@@ -1,0 +1,126 @@
+//! Injection–recovery with simulated stellar activity: an invented planet (P = 9.3 d,
+//! K = 4 m/s, circular) plus a quasi-periodic GP draw of amplitude 10 m/s (2.5 × K;
+//! rotation 13.7 d, not a multiple of the orbital period; evolution 25 d; smoothness 0.5)
+//! and 1 m/s white noise, 110 epochs over 160 days, in 12 realisations.
+//!
+//! The activity is drawn from a dense Cholesky factor of its covariance (Rasmussen &
+//! Williams 2006, §A.2: x = L z), not from heft's fitting code. Checks: the GP fit's K
+//! lies within 1σ of the truth in most realisations (at least 7 of 12; 68 % expected),
+//! and the white-noise fit's K errors are larger (rms at least 1.5 × the GP fit's). Both
+//! sets of K, their mean and rms errors and their 1σ coverage are printed. (In this
+//! scenario the white-noise fit's own σ, inflated by a large fitted jitter, covers its
+//! scattered K values; its estimates are worse, not overconfident.)
+
+use heft::data::RvSet;
+use heft::fit::{self, FitOptions, PlanetSpec};
+use heft::gp::{Activity, Kernel, Points, Term};
+use heft::target::OrbitShape;
+use nalgebra::DVector;
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::StandardNormal;
+
+const K_TRUE: f64 = 4.0;
+const P_TRUE: f64 = 9.3;
+const P_ROT: f64 = 13.7;
+
+fn realisation(seed: u64) -> RvSet {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let n = 110;
+    let mut t: Vec<f64> = (0..n).map(|_| rng.random_range(-80.0..80.0)).collect();
+    t.sort_by(f64::total_cmp);
+    let kernel = Kernel {
+        terms: vec![Term::QuasiPeriodic {
+            amplitude_mps: 10.0,
+            evolution_d: 25.0,
+            period_d: P_ROT,
+            smoothness: 0.5,
+        }],
+    };
+    let tiny = vec![1e-8; n];
+    let ones = vec![1.0; n];
+    let cov = Points {
+        time_d: &t,
+        white: &tiny,
+        scale: &ones,
+    }
+    .covariance(&kernel);
+    let l = cov.cholesky().expect("positive definite").l();
+    let z = DVector::from_fn(n, |_, _| rng.sample::<f64, _>(StandardNormal));
+    let activity = l * z;
+    let phase0 = rng.random_range(0.0..P_TRUE);
+    let rv: Vec<f64> = (0..n)
+        .map(|i| {
+            K_TRUE * (std::f64::consts::TAU * (t[i] - phase0) / P_TRUE).sin()
+                + activity[i]
+                + rng.sample::<f64, _>(StandardNormal)
+        })
+        .collect();
+    RvSet::from_columns(
+        "injected",
+        2_460_000.0,
+        t,
+        rv,
+        vec![1.0; n],
+        vec![0; n],
+        vec!["Sim".into()],
+    )
+}
+
+#[test]
+fn gp_recovers_k_better_than_white_noise() {
+    let spec = PlanetSpec {
+        period_d: P_TRUE,
+        fix_period: false,
+        k_mps: 3.0,
+        tc_d: 0.0,
+        ecc_vector: (0.0, 0.0),
+        period_prior: None,
+        tc_prior: None,
+        label: "b".into(),
+    };
+    let white = FitOptions {
+        shape: OrbitShape::Circular,
+        trend: 0,
+        ..FitOptions::default()
+    };
+    let gp = FitOptions {
+        activity: Activity::QuasiPeriodic,
+        rotation_d: Some(heft::gp::rotation_prior(P_ROT, 0.0)),
+        ..white
+    };
+    let (mut within_gp, mut within_white) = (0, 0);
+    let (mut ss_gp, mut ss_white) = (0.0, 0.0);
+    let (mut sum_gp, mut sum_white) = (0.0, 0.0);
+    let runs = 12;
+    println!("realisation: K white (±σ) | K GP (±σ), truth {K_TRUE} m/s");
+    for seed in 0..runs {
+        let set = realisation(100 + seed);
+        let k = |o: &FitOptions| {
+            let f = fit::fit(&set, std::slice::from_ref(&spec), o).unwrap();
+            let s = f.planets[0].k_mps;
+            (s.value, 0.5 * (s.minus + s.plus))
+        };
+        let (kw, sw) = k(&white);
+        let (kg, sg) = k(&gp);
+        println!("{seed:>2}: {kw:6.2} ± {sw:4.2} | {kg:6.2} ± {sg:4.2}");
+        within_white += usize::from((kw - K_TRUE).abs() <= sw);
+        within_gp += usize::from((kg - K_TRUE).abs() <= sg);
+        ss_white += (kw - K_TRUE).powi(2);
+        ss_gp += (kg - K_TRUE).powi(2);
+        sum_white += kw - K_TRUE;
+        sum_gp += kg - K_TRUE;
+    }
+    let (rms_white, rms_gp) = (
+        (ss_white / runs as f64).sqrt(),
+        (ss_gp / runs as f64).sqrt(),
+    );
+    let n = runs as f64;
+    println!(
+        "within 1σ: white {within_white}/{runs}, GP {within_gp}/{runs}; mean K error: white {:+.2} m/s, GP {:+.2} m/s; rms K error: white {rms_white:.2} m/s, GP {rms_gp:.2} m/s",
+        sum_white / n,
+        sum_gp / n
+    );
+    assert!(within_gp >= 7, "GP fit within 1σ in {within_gp}/{runs}");
+    assert!(rms_white >= 1.5 * rms_gp, "{rms_white} vs {rms_gp}");
+}
