@@ -55,7 +55,8 @@ pub struct Prior {
     pub kind: &'static str,
     /// Description with values and units.
     pub detail: String,
-    /// Where it comes from: `default`, `transit`, `target file` or `request`.
+    /// Where it comes from: `default`, `transit`, `target file`, `request` or `rotation`
+    /// (the star's rotation period, for the activity model).
     pub source: &'static str,
 }
 
@@ -455,6 +456,24 @@ pub fn analyse(
     let warm: Vec<PlanetSpec> = req.warm.iter().map(|w| w.spec(set.epoch_bjd)).collect();
     let search = fit::search_warm(set, &known, &req.search, &warm)?;
     let signals = fit::signal_tests(set, &search, known.len())?;
+    if req.sampler.is_none()
+        && let Some(a) = &search.fit.layout.activity
+    {
+        for (key, (lo, hi)) in a.model.keys().iter().zip(&a.bounds) {
+            priors.push(Prior {
+                parameter: format!("activity.{key}"),
+                kind: "bound",
+                detail: format!("{lo} to {hi}"),
+                source: "default",
+            });
+        }
+        priors.push(Prior {
+            parameter: "activity.rotation_d".into(),
+            kind: "gaussian",
+            detail: format!("{} ± {} d", a.rotation.0, a.rotation.1),
+            source: "rotation",
+        });
+    }
 
     let posterior = match &req.sampler {
         None => None,

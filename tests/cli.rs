@@ -547,3 +547,64 @@ fn quiet_and_verbose_modes() {
     let both = heft(&["-q", "-v", "periodogram", &data]);
     assert_eq!(both.status.code(), Some(2));
 }
+
+/// `--activity` (design.md contract): the activity block of results.json with every
+/// hyperparameter as an estimate, the rotation prior recorded; without `--rotation-d`, or
+/// with an unknown model, exit 2 with a message naming the option.
+#[test]
+fn fit_with_an_activity_model() {
+    let data = repo("tests/reference/twobody/one_planet.csv");
+    let args = |model: &'static str| {
+        vec![
+            "fit",
+            data.as_str(),
+            "--period",
+            "12.3047",
+            "--planets",
+            "1",
+            "--circular",
+            "--activity",
+            model,
+        ]
+    };
+    let mut ok = args("oscillator");
+    ok.extend(["--rotation-d", "17.0", "--json"]);
+    let doc = json_of(&heft(&ok));
+    let act = &doc["activity"];
+    assert_eq!(act["model"], "oscillator");
+    assert_eq!(act["rotation_prior_d"]["mean"].as_f64(), Some(17.0));
+    // Without --rotation-err-d the prior's sd is 10 % of the period (docs/methods.md).
+    assert!((act["rotation_prior_d"]["sd"].as_f64().unwrap() - 1.7).abs() < 1e-12);
+    for key in [
+        "amplitude_mps",
+        "amplitude_half_mps",
+        "rotation_d",
+        "quality",
+    ] {
+        assert!(is_estimate(&act["parameters"][key]), "{key}: {act}");
+    }
+    assert!(
+        doc["priors"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|p| p["parameter"] == "activity.rotation_d" && p["source"] == "rotation")
+    );
+    let none = json_of(&heft(&[
+        "fit",
+        &data,
+        "--period",
+        "12.3047",
+        "--planets",
+        "1",
+        "--json",
+    ]));
+    assert!(none.get("activity").is_none());
+
+    let out = heft(&args("quasiperiodic"));
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("--rotation-d"), "{}", stderr(&out));
+    let out = heft(&args("spots"));
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("spots"), "{}", stderr(&out));
+}
