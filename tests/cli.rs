@@ -608,3 +608,42 @@ fn fit_with_an_activity_model() {
     assert_eq!(out.status.code(), Some(2));
     assert!(stderr(&out).contains("spots"), "{}", stderr(&out));
 }
+
+/// The audit compares K and mass with and without the activity GP: with a rotation period
+/// and no activity model, a quasi-periodic variant is fitted; with an activity model,
+/// a variant without it. Both carry the planet's K and mass.
+#[test]
+fn audit_compares_with_and_without_the_activity_model() {
+    let data = repo("tests/reference/gls_data.csv");
+    let base = [
+        "audit",
+        data.as_str(),
+        "--period",
+        "17.3",
+        "--mstar-msun",
+        "0.9",
+        "--rotation-d",
+        "6.1",
+        "--json",
+    ];
+    let variant = |doc: &Value, prefix: &str| {
+        doc["audit"]["planets"][0]["variants"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|v| v["name"].as_str().unwrap().starts_with(prefix))
+            .cloned()
+            .unwrap_or_else(|| panic!("no variant {prefix}"))
+    };
+    let doc = json_of(&heft(&base));
+    let with = variant(&doc, "with a quasi-periodic activity model");
+    assert!(is_estimate(&with["planet"]["k_mps"]));
+    assert!(is_estimate(&with["planet"]["mass_mearth"]));
+    let mut gp = base.to_vec();
+    gp.extend(["--activity", "oscillator"]);
+    let doc = json_of(&heft(&gp));
+    assert_eq!(doc["activity"]["model"], "oscillator");
+    let without = variant(&doc, "without the activity model");
+    assert!(is_estimate(&without["planet"]["k_mps"]));
+    assert!(is_estimate(&without["planet"]["mass_mearth"]));
+}

@@ -5,7 +5,9 @@
 //! instruments; each other trend order (0, 1, 2); without each other signal; with one more
 //! signal (the strongest residual periodogram peak); a linear term in each activity
 //! indicator (centred per instrument); a signal at the stellar rotation period when it is
-//! known; and, for two signals near a 2:1 period ratio, one eccentric planet at the outer
+//! known; the stellar-activity GP switched off when the baseline has one, or a
+//! quasi-periodic GP ([`crate::gp::Activity::QuasiPeriodic`]) added when it has none and
+//! the rotation period is known; and, for two signals near a 2:1 period ratio, one eccentric planet at the outer
 //! period instead (the degeneracy of Anglada-Escudé, López-Morales & Chambers 2010, ApJ
 //! 709, 168). All are maximum-likelihood refits started from the baseline.
 //!
@@ -25,6 +27,7 @@ use super::PlanetValues;
 use super::common::{Refitter, centred_indicators};
 use crate::data::RvSet;
 use crate::fit::{Fit, FitOptions, PlanetSpec, fit, next_label};
+use crate::gp::{Activity, rotation_prior};
 use crate::model::point_log_likelihood;
 use crate::periodogram::sinusoid_at;
 use crate::sample::{self, PriorSet};
@@ -206,6 +209,24 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
             set.clone(),
             extra,
             opts,
+        ));
+    }
+    if opts.activity != Activity::None {
+        jobs.push((
+            "without the activity model".into(),
+            set.clone(),
+            specs.clone(),
+            with(&|o| o.activity = Activity::None),
+        ));
+    } else if let Some((p_rot, p_err)) = refit.settings.rotation_d {
+        jobs.push((
+            format!("with a quasi-periodic activity model ({p_rot} d)"),
+            set.clone(),
+            specs.clone(),
+            with(&|o| {
+                o.activity = Activity::QuasiPeriodic;
+                o.rotation_d = Some(rotation_prior(p_rot, p_err));
+            }),
         ));
     }
     for (inner, outer) in near_two_to_one(&specs) {
