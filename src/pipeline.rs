@@ -335,7 +335,7 @@ pub fn run_target_from(
         warm: warm.to_vec(),
     };
     let mut analysis = analyse(request, progress)?;
-    analysis.periodograms = Some(periodogram_report(&analysis)?);
+    analysis.periodograms = Some(periodogram_report(&analysis, target.star.rotation_d)?);
     if target.settings.audit && !analysis.search.fit.planets.is_empty() {
         let ctx = audit::Context {
             star: Some(&target.star),
@@ -352,14 +352,16 @@ pub fn run_target_from(
 const REPORT_BOOTSTRAP: usize = 200;
 
 /// The periodogram report on the search grid: the data's periodogram, window and
-/// indicators, and the residual periodogram after each signal the search fitted.
-fn periodogram_report(a: &Analysis) -> Result<Overview, PeriodogramError> {
+/// indicators (peaks near the rotation period `rotation_d` flagged), and the residual
+/// periodogram after each signal the search fitted.
+fn periodogram_report(a: &Analysis, rotation_d: Option<f64>) -> Result<Overview, PeriodogramError> {
     let steps = &a.search.steps;
     let grid = steps[0].periodogram.grid;
     let settings = OverviewSettings {
         method: periodogram::Method::FAST,
         bootstrap: REPORT_BOOTSTRAP,
         seed: a.seed,
+        rotation_d,
         ..OverviewSettings::default()
     };
     let mut ov = periodogram::overview(&a.set, &[], &grid, &settings)?;

@@ -647,3 +647,33 @@ fn audit_compares_with_and_without_the_activity_model() {
     assert!(is_estimate(&without["planet"]["k_mps"]));
     assert!(is_estimate(&without["planet"]["mass_mearth"]));
 }
+
+/// `heft periodogram --rotation-d`: a peak near half the rotation period is flagged
+/// (data: the 17.31 d and 3.127 d sinusoids of tests/reference/make_gls_fixture.py).
+#[test]
+fn periodogram_flags_rotation_harmonics() {
+    let out = heft(&[
+        "periodogram",
+        &repo("tests/reference/gls_data.csv"),
+        "--rotation-d",
+        "34.0",
+        "--bootstrap",
+        "0",
+        "--json",
+    ]);
+    let doc = json_of(&out);
+    let peaks = doc["peaks"].as_array().unwrap();
+    let top = peaks
+        .iter()
+        .find(|p| (p["period"].as_f64().unwrap() - 17.31).abs() < 0.3)
+        .expect("the 17.31 d peak");
+    let flag = top["near_rotation"].as_str().unwrap();
+    assert!(flag.starts_with("half the rotation period"), "{flag}");
+    assert!(flag.ends_with("given"), "{flag}");
+    assert!(
+        peaks
+            .iter()
+            .filter(|p| (p["period"].as_f64().unwrap() - 3.127).abs() < 0.05)
+            .all(|p| p.get("near_rotation").is_none())
+    );
+}

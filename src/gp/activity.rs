@@ -113,6 +113,26 @@ pub fn rotation_prior(p_d: f64, err_d: f64) -> (f64, f64) {
     }
 }
 
+/// Fractional distance from a rotation harmonic that counts as "near" (5 %, a choice of
+/// heft's: wider than the typical uncertainty of a photometric rotation period).
+pub const ROTATION_TOLERANCE: f64 = 0.05;
+
+/// Which of the rotation period and its first two harmonics (`P_rot`, `P_rot/2`,
+/// `P_rot/3`; activity puts signals there: Boisse et al. 2011, A&A 528, A4) `period_d`
+/// lies within [`ROTATION_TOLERANCE`] of, in words with the harmonic's period.
+pub fn near_rotation(period_d: f64, rotation_d: f64) -> Option<String> {
+    let names = [
+        "the rotation period",
+        "half the rotation period",
+        "a third of the rotation period",
+    ];
+    (1..=3).find_map(|h| {
+        let target = rotation_d / h as f64;
+        ((period_d / target - 1.0).abs() < ROTATION_TOLERANCE)
+            .then(|| format!("{} ({target:.3} d)", names[h - 1]))
+    })
+}
+
 /// Weight of the quadratic wall at the hyperparameter bounds, per (ln unit)².
 pub const BOUND_PENALTY: f64 = 1e6;
 
@@ -186,5 +206,40 @@ impl ActivityLayout {
             self.bounds[Activity::ROTATION].1,
         );
         walls + 0.5 * ((p - m) / sd).powi(2)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Rotation harmonics at P, P/2 and P/3 within 5 % (common practice: activity signals
+    /// appear at the rotation period and its first harmonics).
+    #[test]
+    fn rotation_harmonics() {
+        let words = |p: f64| near_rotation(p, 12.0);
+        assert!(words(12.5).unwrap().starts_with("the rotation period"));
+        assert!(
+            words(6.2)
+                .unwrap()
+                .starts_with("half the rotation period (6.000 d)")
+        );
+        assert!(words(3.9).unwrap().starts_with("a third"));
+        assert_eq!(words(9.0), None);
+        assert_eq!(words(3.0), None);
+    }
+
+    /// The fit's smooth wall: zero inside the bounds, growing with the excess outside;
+    /// clamping keeps the model evaluable there.
+    #[test]
+    fn bounds_wall_and_clamp() {
+        let a = ActivityLayout::new(Activity::QuasiPeriodic, (10.0, 1.0), 5.0, 200.0);
+        assert_eq!(a.penalty(&a.start), 0.0);
+        let mut out = a.start.clone();
+        out[3] = 20.0;
+        assert!((a.penalty(&out) - BOUND_PENALTY * 2f64.ln().powi(2)).abs() < 1e-6);
+        assert_eq!(a.clamp(&out)[3], 10.0);
+        assert_eq!("oscillator".parse::<Activity>(), Ok(Activity::Oscillator));
+        assert!("spots".parse::<Activity>().is_err());
     }
 }

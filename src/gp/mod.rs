@@ -13,7 +13,10 @@ pub mod activity;
 pub mod kernel;
 pub mod semiseparable;
 
-pub use activity::{Activity, ActivityLayout, ROTATION_SD_FRACTION, rotation_prior};
+pub use activity::{
+    Activity, ActivityLayout, ROTATION_SD_FRACTION, ROTATION_TOLERANCE, near_rotation,
+    rotation_prior,
+};
 pub use kernel::{Kernel, Term};
 pub use semiseparable::SemiseparableFactor;
 
