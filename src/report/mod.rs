@@ -28,7 +28,10 @@ pub use mass_radius::{PlanetCloud, mass_radius_svg};
 pub use pgram::{overview_svg, periodogram_meta, periodogram_svg};
 pub use phase::{ModelPlanet, phase_svg, residuals_time_svg};
 pub use render::{RenderError, figures, render, report_files};
-pub use saved::{POINTS_FILE, Point, Points, SavedError, SavedRun, points_csv, read_run};
+pub use saved::{
+    ACTIVITY_FILE, POINTS_FILE, Point, Points, SavedError, SavedRun, activity_csv, points_csv,
+    read_run,
+};
 pub use table::{ResultsTable, Rounded, decimals_for, round_to_uncertainty};
 pub use text::{audit_text, format_summary, summary_text};
 
@@ -43,7 +46,8 @@ use crate::pipeline::Analysis;
 /// folder; a run under `runs/` also becomes `LATEST`. With a periodogram report also
 /// `periodogram.json` (peaks, FAPs, aliases, window peaks, false-alarm levels) and
 /// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid); with
-/// draws also `draws.parquet` (and `draws.csv` when `draws_csv`).
+/// draws also `draws.parquet` (and `draws.csv` when `draws_csv`); with an activity GP
+/// also `activity_model.csv` (the GP's mean and standard deviation against time).
 ///
 /// # Errors
 /// I/O errors; files already written stay complete (each is written atomically).
@@ -59,6 +63,9 @@ pub fn write_run(
     write_atomic(&dir.join("manifest.json"), &manifest)?;
     write_draws(analysis, &dir, draws_csv)?;
     write_atomic(&dir.join(POINTS_FILE), points_csv(analysis).as_bytes())?;
+    if let Some(curve) = activity_csv(analysis) {
+        write_atomic(&dir.join(ACTIVITY_FILE), curve.as_bytes())?;
+    }
     let json = serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
     write_atomic(&dir.join("summary.txt"), summary_text(analysis).as_bytes())?;
     if let Some(md) = density_markdown(analysis) {

@@ -15,6 +15,12 @@ use crate::pipeline::Analysis;
 /// Name of the table of data points as used.
 pub const POINTS_FILE: &str = "data_used.csv";
 
+/// Name of the table of the activity model's curve (with an activity GP only).
+pub const ACTIVITY_FILE: &str = "activity_model.csv";
+
+/// Times at which the activity model's curve is saved.
+const ACTIVITY_CURVE_POINTS: usize = 1500;
+
 /// A file of a run folder that could not be used, and why.
 #[derive(Debug, thiserror::Error)]
 #[error("{}: {problem}", file.display())]
@@ -36,14 +42,24 @@ impl SavedError {
 
 /// `data_used.csv`: one row per data point in time order, columns `file`, `row`,
 /// `instrument`, `time_bjd` (BJD_TDB), `rv_mps`, `rv_err_mps`, `model_mps` (planets +
-/// offset + trend of the maximum-likelihood fit), `residual_mps`, then one
-/// `signal_<label>_mps` column per planet (its Keplerian alone).
+/// offset + trend of the maximum-likelihood fit), `residual_mps` (with an activity GP also
+/// minus the activity model, which then follows as `activity_mps`: the GP's conditional
+/// mean at the point), then one `signal_<label>_mps` column per planet (its Keplerian
+/// alone).
 pub fn points_csv(a: &Analysis) -> String {
     let set = &a.set;
     let params = &a.search.fit.params;
     let model = params.predict(set);
+    let activity = a
+        .search
+        .fit
+        .activity_prediction(set, &set.time_d)
+        .map(|p| p.0);
     let mut s =
         String::from("file,row,instrument,time_bjd,rv_mps,rv_err_mps,model_mps,residual_mps");
+    if activity.is_some() {
+        s.push_str(",activity_mps");
+    }
     for p in &a.search.fit.planets {
         let _ = write!(s, ",signal_{}_mps", p.label.replace([',', '"', '\n'], " "));
     }
@@ -55,6 +71,7 @@ pub fn points_csv(a: &Analysis) -> String {
                 .map_or(String::new(), |n| n.to_string_lossy().into_owned())
         });
         let t = set.time_d[i];
+        let act = activity.as_ref().map(|v| v[i]);
         let _ = write!(
             s,
             "{},{},{},{:.8},{},{},{},{}",
@@ -65,8 +82,11 @@ pub fn points_csv(a: &Analysis) -> String {
             set.rv_mps[i],
             set.err_mps[i],
             m,
-            set.rv_mps[i] - m
+            set.rv_mps[i] - m - act.unwrap_or(0.0)
         );
+        if let Some(v) = act {
+            let _ = write!(s, ",{v}");
+        }
         for orbit in &params.planets {
             let _ = write!(s, ",{}", orbit.rv(t));
         }
@@ -88,8 +108,10 @@ pub struct Point {
     pub err_mps: f64,
     /// Model (planets + offset + trend), m/s.
     pub model_mps: f64,
-    /// Observed − model, m/s.
+    /// Observed − model (− activity model, with a GP), m/s.
     pub residual_mps: f64,
+    /// The activity GP's conditional mean at this time, m/s (0 without a GP).
+    pub activity_mps: f64,
     /// Each planet's Keplerian at this time, m/s (order of `signals`).
     pub signals_mps: Vec<f64>,
 }
@@ -145,7 +167,9 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
             format!("line 1: expected the columns {}", fixed.join(",")),
         ));
     }
-    let signals: Vec<String> = header[fixed.len()..]
+    let with_activity = header.get(fixed.len()) == Some(&"activity_mps");
+    let first_signal = fixed.len() + usize::from(with_activity);
+    let signals: Vec<String> = header[first_signal..]
         .iter()
         .map(|h| {
             h.strip_prefix("signal_")
@@ -183,7 +207,8 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
             err_mps: num(5)?,
             model_mps: num(6)?,
             residual_mps: num(7)?,
-            signals_mps: (fixed.len()..f.len()).map(num).collect::<Result<_, _>>()?,
+            activity_mps: if with_activity { num(8)? } else { 0.0 },
+            signals_mps: (first_signal..f.len()).map(num).collect::<Result<_, _>>()?,
         });
     }
     if points.is_empty() {
@@ -280,6 +305,61 @@ pub fn read_draws(path: &Path) -> Result<Vec<(String, Vec<f64>)>, SavedError> {
         .collect())
 }
 
+/// The activity model's curve: times (BJD_TDB), conditional mean and standard deviation
+/// (m/s) of the activity GP.
+pub type ActivityCurve = Vec<[f64; 3]>;
+
+/// `activity_model.csv`, columns `time_bjd,mean_mps,sd_mps`: the activity GP's
+/// conditional mean and standard deviation on an even grid from 2 % before the first
+/// point to 2 % after the last; `None` without a GP.
+pub fn activity_csv(a: &Analysis) -> Option<String> {
+    let set = &a.set;
+    let (t0, t1) = (set.time_d[0], set.time_d[set.len() - 1]);
+    let pad = 0.02 * (t1 - t0);
+    let n = ACTIVITY_CURVE_POINTS;
+    let at: Vec<f64> = (0..n)
+        .map(|k| t0 - pad + (t1 - t0 + 2.0 * pad) * k as f64 / (n - 1) as f64)
+        .collect();
+    let (mean, var) = a.search.fit.activity_prediction(set, &at)?;
+    let mut s = String::from("time_bjd,mean_mps,sd_mps\n");
+    for k in 0..n {
+        let _ = writeln!(
+            s,
+            "{:.8},{},{}",
+            set.epoch_bjd + at[k],
+            mean[k],
+            var[k].max(0.0).sqrt()
+        );
+    }
+    Some(s)
+}
+
+/// Reads `activity_model.csv`.
+///
+/// # Errors
+/// [`SavedError`] naming the file and, for a bad row, its line.
+pub fn read_activity(path: &Path) -> Result<ActivityCurve, SavedError> {
+    let text = fs::read_to_string(path).map_err(|e| SavedError::new(path, e.to_string()))?;
+    let mut lines = text.lines();
+    if lines.next() != Some("time_bjd,mean_mps,sd_mps") {
+        return Err(SavedError::new(
+            path,
+            "line 1: expected the columns time_bjd,mean_mps,sd_mps",
+        ));
+    }
+    lines
+        .enumerate()
+        .map(|(k, line)| {
+            let v: Vec<f64> = fields(line)
+                .iter()
+                .filter_map(|x| x.parse::<f64>().ok().filter(|v| v.is_finite()))
+                .collect();
+            <[f64; 3]>::try_from(v)
+                .map_err(|_| SavedError::new(path, format!("line {}: expected 3 numbers", k + 2)))
+        })
+        .collect()
+}
+
 /// Everything a report is drawn from, read from a run folder.
 #[derive(Clone, Debug)]
 pub struct SavedRun {
@@ -293,10 +373,12 @@ pub struct SavedRun {
     pub periodograms: Option<SavedPeriodograms>,
     /// `draws.parquet`, when the run wrote draws.
     pub draws: Option<Vec<(String, Vec<f64>)>>,
+    /// `activity_model.csv`, when the run had an activity GP.
+    pub activity: Option<ActivityCurve>,
 }
 
 /// Reads a run folder: `results.json` and `data_used.csv` are required, the
-/// periodograms and draws are read when present.
+/// periodograms, draws and activity model are read when present.
 ///
 /// # Errors
 /// [`SavedError`] naming the first file that is missing or malformed.
@@ -325,11 +407,18 @@ pub fn read_run(dir: &Path) -> Result<SavedRun, SavedError> {
     } else {
         None
     };
+    let activity_path = dir.join(ACTIVITY_FILE);
+    let activity = if activity_path.exists() {
+        Some(read_activity(&activity_path)?)
+    } else {
+        None
+    };
     Ok(SavedRun {
         dir: dir.to_path_buf(),
         results,
         points,
         periodograms,
         draws,
+        activity,
     })
 }
