@@ -55,8 +55,9 @@ pub struct Prior {
     pub kind: &'static str,
     /// Description with values and units.
     pub detail: String,
-    /// Where it comes from: `default`, `transit`, `target file`, `request` or `rotation`
-    /// (the star's rotation period, for the activity model).
+    /// Where it comes from: `default`, `transit`, `target file`, `request`, `rotation`
+    /// (the star's rotation period, for the activity model) or `indicator` (the activity
+    /// model trained on an indicator).
     pub source: &'static str,
 }
 
@@ -255,6 +256,27 @@ pub struct Analysis {
     pub warm_from: Option<String>,
 }
 
+/// Index of the indicator column `name` in `set`.
+///
+/// # Errors
+/// [`FitError::Start`] naming the indicator columns the data have.
+pub fn indicator_column(set: &RvSet, name: &str) -> Result<usize, FitError> {
+    set.indicators
+        .iter()
+        .position(|i| i.name == name)
+        .ok_or_else(|| {
+            let have: Vec<&str> = set.indicators.iter().map(|i| i.name.as_str()).collect();
+            FitError::Start(format!(
+                "activity indicator `{name}`: no such indicator column in the data (they have: {})",
+                if have.is_empty() {
+                    "none".to_string()
+                } else {
+                    have.join(", ")
+                }
+            ))
+        })
+}
+
 /// Search settings from a target file's settings and star (its rotation period centres
 /// the activity model's rotation prior).
 pub fn search_settings(s: &Settings, star: &Star) -> SearchSettings {
@@ -319,6 +341,10 @@ pub fn run_target_from(
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
     let set = data::load(&target.data)?;
+    let mut search = search_settings(&target.settings, &target.star);
+    if let Some(name) = &target.settings.activity_indicator {
+        search.options.activity_indicator = Some(indicator_column(&set, name)?);
+    }
     let request = Request {
         name: target.name.clone(),
         set,
@@ -326,7 +352,7 @@ pub fn run_target_from(
         transits: &target.transits,
         periods: Vec::new(),
         fix_periods: false,
-        search: search_settings(&target.settings, &target.star),
+        search,
         seed: target.settings.seed,
         draws: target.settings.draws,
         profile: profile_settings(&target.settings),
@@ -391,6 +417,8 @@ pub fn analyse(
     req: Request,
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
+    let mut req = req;
+    req.search.options.activity_priors = fit::train_activity(&req.set, &req.search.options)?;
     let set = &req.set;
     let mut known = Vec::new();
     let mut priors = Vec::new();
@@ -473,8 +501,22 @@ pub fn analyse(
             parameter: "activity.rotation_d".into(),
             kind: "gaussian",
             detail: format!("{} ± {} d", a.rotation.0, a.rotation.1),
-            source: "rotation",
+            source: if a.trained.iter().any(Option::is_some) {
+                "indicator"
+            } else {
+                "rotation"
+            },
         });
+        for (key, p) in a.model.keys().iter().zip(&a.trained) {
+            if let Some((m, sd)) = p {
+                priors.push(Prior {
+                    parameter: format!("activity.{key}"),
+                    kind: "gaussian",
+                    detail: format!("{m} ± {sd}"),
+                    source: "indicator",
+                });
+            }
+        }
     }
 
     let posterior = match &req.sampler {

@@ -208,6 +208,9 @@ pub struct Settings {
     /// Stellar-activity noise model: `none` (default), `quasiperiodic` or `oscillator`
     /// (Gaussian processes; need `star.rotation_d`, which centres the rotation prior).
     pub activity: crate::gp::Activity,
+    /// Indicator column on which the activity model's hyperparameters are trained first
+    /// (their fit becomes Gaussian priors of the RV fit; default none).
+    pub activity_indicator: Option<String>,
     /// Start `heft run` from the latest complete run's solution (default false: every run
     /// starts afresh, so identical inputs give identical results).
     pub warm_start: bool,
@@ -239,6 +242,7 @@ impl Default for Settings {
             audit_posterior: false,
             warm_start: false,
             activity: crate::gp::Activity::None,
+            activity_indicator: None,
         }
     }
 }
@@ -717,6 +721,13 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
                 "the {:?} activity model needs the rotation period star.rotation_d",
                 s.activity
             ),
+        ));
+    }
+
+    if s.activity_indicator.is_some() && s.activity == crate::gp::Activity::None {
+        return Err(invalid(
+            "settings.activity_indicator",
+            "needs an activity model: set settings.activity".into(),
         ));
     }
 

@@ -11,7 +11,7 @@
 //! scenario the white-noise fit's own σ, inflated by a large fitted jitter, covers its
 //! scattered K values; its estimates are worse, not overconfident.)
 
-use heft::data::RvSet;
+use heft::data::{Indicator, RvSet};
 use heft::fit::{self, FitOptions, PlanetSpec};
 use heft::gp::{Activity, Kernel, Points, Term};
 use heft::target::OrbitShape;
@@ -24,9 +24,8 @@ const K_TRUE: f64 = 4.0;
 const P_TRUE: f64 = 9.3;
 const P_ROT: f64 = 13.7;
 
-fn realisation(seed: u64) -> RvSet {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let n = 110;
+/// `n` invented sorted times and a draw of the injected quasi-periodic activity at them.
+fn activity_draw(rng: &mut ChaCha8Rng, n: usize) -> (Vec<f64>, Vec<f64>) {
     let mut t: Vec<f64> = (0..n).map(|_| rng.random_range(-80.0..80.0)).collect();
     t.sort_by(f64::total_cmp);
     let kernel = Kernel {
@@ -47,7 +46,13 @@ fn realisation(seed: u64) -> RvSet {
     .covariance(&kernel);
     let l = cov.cholesky().expect("positive definite").l();
     let z = DVector::from_fn(n, |_, _| rng.sample::<f64, _>(StandardNormal));
-    let activity = l * z;
+    (t, (l * z).as_slice().to_vec())
+}
+
+fn realisation(seed: u64) -> RvSet {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let n = 110;
+    let (t, activity) = activity_draw(&mut rng, n);
     let phase0 = rng.random_range(0.0..P_TRUE);
     let rv: Vec<f64> = (0..n)
         .map(|i| {
@@ -123,4 +128,80 @@ fn gp_recovers_k_better_than_white_noise() {
     );
     assert!(within_gp >= 7, "GP fit within 1σ in {within_gp}/{runs}");
     assert!(rms_white >= 1.5 * rms_gp, "{rms_white} vs {rms_gp}");
+}
+
+/// Training on an indicator: the indicator is the same activity (its draw scaled to an
+/// invented line-width unit, 0.4 units per m/s, plus white noise of 0.5 units). The
+/// trained rotation period and evolution timescale lie within 3σ of the injected ones,
+/// become Gaussian priors of the RV fit (the rotation prior replaced), and the RV fit
+/// with them recovers K within 3σ.
+#[test]
+fn indicator_training_gives_priors_for_the_rv_fit() {
+    let mut rng = ChaCha8Rng::seed_from_u64(7);
+    let n = 110;
+    let (t, activity) = activity_draw(&mut rng, n);
+    let rv: Vec<f64> = (0..n)
+        .map(|i| {
+            K_TRUE * (std::f64::consts::TAU * t[i] / P_TRUE).sin()
+                + activity[i]
+                + rng.sample::<f64, _>(StandardNormal)
+        })
+        .collect();
+    let width: Vec<f64> = activity
+        .iter()
+        .map(|a| 50.0 + 0.4 * a + 0.5 * rng.sample::<f64, _>(StandardNormal))
+        .collect();
+    let mut set = RvSet::from_columns(
+        "trained",
+        2_460_000.0,
+        t,
+        rv,
+        vec![1.0; n],
+        vec![0; n],
+        vec!["Sim".into()],
+    );
+    set.indicators = vec![Indicator {
+        name: "width".into(),
+        values: width,
+    }];
+    let options = FitOptions {
+        shape: OrbitShape::Circular,
+        trend: 0,
+        activity: Activity::QuasiPeriodic,
+        rotation_d: Some(heft::gp::rotation_prior(P_ROT * 1.05, 0.0)),
+        activity_indicator: Some(0),
+        ..FitOptions::default()
+    };
+    let priors = fit::train_activity(&set, &options).unwrap();
+    println!("trained priors (evolution, rotation, smoothness): {priors:?}");
+    assert!(priors[0].is_none(), "amplitudes are not transferred");
+    let (lambda, sl) = priors[1].unwrap();
+    let (p, sp) = priors[2].unwrap();
+    assert!((lambda - 25.0).abs() < 3.0 * sl, "{lambda} ± {sl}");
+    assert!((p - P_ROT).abs() < 3.0 * sp, "{p} ± {sp}");
+    let spec = PlanetSpec {
+        period_d: P_TRUE,
+        fix_period: false,
+        k_mps: 3.0,
+        tc_d: 0.0,
+        ecc_vector: (0.0, 0.0),
+        period_prior: None,
+        tc_prior: None,
+        label: "b".into(),
+    };
+    let f = fit::fit(
+        &set,
+        &[spec],
+        &FitOptions {
+            activity_priors: priors,
+            ..options
+        },
+    )
+    .unwrap();
+    let a = f.layout.activity.as_ref().unwrap();
+    assert_eq!(a.rotation, (p, sp));
+    assert_eq!(a.trained[1], priors[1]);
+    let k = f.planets[0].k_mps;
+    println!("K with trained priors: {} ± {}", k.value, k.plus);
+    assert!((k.value - K_TRUE).abs() < 3.0 * k.plus);
 }

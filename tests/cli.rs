@@ -607,6 +607,15 @@ fn fit_with_an_activity_model() {
     let out = heft(&args("spots"));
     assert_eq!(out.status.code(), Some(2));
     assert!(stderr(&out).contains("spots"), "{}", stderr(&out));
+    let mut unknown = args("quasiperiodic");
+    unknown.extend(["--rotation-d", "17.0", "--activity-indicator", "s_index"]);
+    let out = heft(&unknown);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        stderr(&out).contains("activity indicator `s_index`: no such indicator column"),
+        "{}",
+        stderr(&out)
+    );
 }
 
 /// The audit compares K and mass with and without the activity GP: with a rotation period

@@ -48,6 +48,10 @@ pub struct FitArgs {
     /// (and the audit tests a signal there).
     #[arg(long)]
     rotation_d: Option<f64>,
+    /// Train the activity model on this indicator column first (its hyperparameters
+    /// become priors of the RV fit).
+    #[arg(long, value_name = "COLUMN")]
+    activity_indicator: Option<String>,
     /// 1σ uncertainty of the rotation period, days (default for the prior: 10 % of it).
     #[arg(long, requires = "rotation_d")]
     rotation_err_d: Option<f64>,
@@ -122,6 +126,17 @@ impl FitArgs {
         };
         let rotation = self.rotation()?;
         let set = self.input.load()?;
+        if self.activity_indicator.is_some() && self.activity == Activity::None {
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--activity-indicator needs an activity model: --activity quasiperiodic|oscillator"
+            )));
+        }
+        let activity_indicator = self
+            .activity_indicator
+            .as_deref()
+            .map(|name| pipeline::indicator_column(&set, name))
+            .transpose()
+            .map_err(|e| Failure::Input(e.into()))?;
         Ok(Request {
             name: self
                 .input
@@ -150,6 +165,7 @@ impl FitArgs {
                     trend: usize::from(self.trend),
                     activity: self.activity,
                     rotation_d: rotation.map(|(p, e)| rotation_prior(p, e)),
+                    activity_indicator,
                     ..FitOptions::default()
                 },
             },

@@ -78,6 +78,12 @@ pub struct FitOptions {
     /// Rotation-period prior `(mean, sd)` in days of the activity model (required by
     /// every model but `none`).
     pub rotation_d: Option<(f64, f64)>,
+    /// Indicator column (index into the data's indicators) on which the activity model's
+    /// hyperparameters are trained before the RV fit ([`train_activity`]; default none).
+    pub activity_indicator: Option<usize>,
+    /// Gaussian priors `(mean, sd)` on the activity hyperparameters ([`Activity::keys`]
+    /// order, physical units) from that training; `None` entries are free.
+    pub activity_priors: [Option<(f64, f64)>; 4],
 }
 
 impl Default for FitOptions {
@@ -90,6 +96,8 @@ impl Default for FitOptions {
             regressors: 0,
             activity: Activity::None,
             rotation_d: None,
+            activity_indicator: None,
+            activity_priors: [None; 4],
         }
     }
 }
@@ -325,12 +333,15 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
                 rotation.0, rotation.1
             )));
         }
-        layout = layout.with_activity(ActivityLayout::new(
-            options.activity,
-            rotation,
-            centred_sd(set),
-            set.baseline_d(),
-        ));
+        layout = layout.with_activity(
+            ActivityLayout::new(
+                options.activity,
+                rotation,
+                centred_sd(set),
+                set.baseline_d(),
+            )
+            .with_trained(&options.activity_priors),
+        );
     }
     if layout.len() >= set.len() {
         return Err(FitError::TooFewPoints {
@@ -385,6 +396,57 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         starts: n_starts,
         ..finish(set, layout, theta, options)
     })
+}
+
+/// Trains the activity model of `options` on indicator column
+/// `options.activity_indicator` of `set`: the same GP (with the same rotation prior) plus
+/// one offset and one jitter per instrument is fitted to the indicator series alone, and
+/// each hyperparameter but the amplitudes (which are in the indicator's unit) becomes a
+/// Gaussian prior `(best fit, mean of its curvature errors)` for the RV fit (hyperparameters
+/// trained on another series of the same star, as Haywood et al. 2014 did with its
+/// light curve; from memory). Hyperparameters
+/// whose curvature error is not defined stay free. All `None` without an indicator.
+///
+/// # Errors
+/// [`FitError`] when the indicator series cannot be fitted (too few points, no rotation
+/// period, an unknown column).
+pub fn train_activity(
+    set: &RvSet,
+    options: &FitOptions,
+) -> Result<[Option<(f64, f64)>; 4], FitError> {
+    let mut priors = [None; 4];
+    let Some(c) = options.activity_indicator else {
+        return Ok(priors);
+    };
+    if c >= set.indicators.len() {
+        return Err(FitError::Start(format!(
+            "activity indicator column {c}: the data have {} indicator columns",
+            set.indicators.len()
+        )));
+    }
+    // The indicators carry no uncertainties: a token error of 5 % of the spread (a
+    // floor of 0.25 % of the variance; the jitters, which start there, take the white
+    // scatter; much smaller starts leave the covariance too ill-conditioned to move).
+    let series = set.indicator_series(c, 0.05 * set.indicator_spread(c));
+    let trained = fit(
+        &series,
+        &[],
+        &FitOptions {
+            trend: 0,
+            regressors: 0,
+            shared_jitter: false,
+            activity_indicator: None,
+            activity_priors: [None; 4],
+            ..*options
+        },
+    )?;
+    for (q, (key, s)) in trained.activity.iter().enumerate() {
+        let sd = 0.5 * (s.minus + s.plus);
+        if !key.starts_with("amplitude") && sd > 0.0 {
+            priors[q] = Some((s.value, sd));
+        }
+    }
+    Ok(priors)
 }
 
 /// Standard deviation of the RVs about each instrument's mean, m/s.

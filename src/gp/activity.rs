@@ -96,6 +96,9 @@ pub struct ActivityLayout {
     pub start: Vec<f64>,
     /// Rotation-period prior `(mean, sd)`, days.
     pub rotation: (f64, f64),
+    /// Gaussian priors `(mean, sd)` on the other hyperparameters (physical units),
+    /// from a fit of the same model to an activity indicator; `None` where free.
+    pub trained: Vec<Option<(f64, f64)>>,
 }
 
 /// Fraction of the rotation period used as its prior's standard deviation when none is
@@ -170,12 +173,31 @@ impl ActivityLayout {
                 vec![amp_start, 0.5 * amp_start, p, 5.0],
             ),
         };
+        let trained = vec![None; start.len()];
         ActivityLayout {
             model,
             bounds,
             start,
             rotation,
+            trained,
         }
+    }
+
+    /// The same layout with trained priors `(mean, sd)` in [`Activity::keys`] order (see
+    /// [`crate::fit::train_activity`]): a rotation prior replaces the given one, the
+    /// others are added; each trained hyperparameter starts at its prior mean (within
+    /// its bounds).
+    pub fn with_trained(mut self, priors: &[Option<(f64, f64)>]) -> ActivityLayout {
+        for (q, p) in priors.iter().enumerate().take(self.start.len()) {
+            let Some(p) = *p else { continue };
+            if q == Activity::ROTATION {
+                self.rotation = p;
+            } else {
+                self.trained[q] = Some(p);
+            }
+            self.start[q] = p.0.clamp(self.bounds[q].0, self.bounds[q].1);
+        }
+        self
     }
 
     /// `values` moved into their bounds (the model is evaluated there; [`Self::penalty`]
@@ -188,7 +210,8 @@ impl ActivityLayout {
             .collect()
     }
 
-    /// `−ln` of the rotation prior (up to a constant) at hyperparameters `values`, plus
+    /// `−ln` of the rotation prior and any trained priors (up to a constant) at
+    /// hyperparameters `values` (moved into their bounds), plus
     /// [`BOUND_PENALTY`] × (ln of the factor by which a value leaves its bounds)², a
     /// smooth wall that keeps the optimiser's line searches finite.
     pub fn penalty(&self, values: &[f64]) -> f64 {
@@ -200,12 +223,20 @@ impl ActivityLayout {
                 BOUND_PENALTY * excess * excess
             })
             .sum();
-        let (m, sd) = self.rotation;
-        let p = values[Activity::ROTATION].clamp(
-            self.bounds[Activity::ROTATION].0,
-            self.bounds[Activity::ROTATION].1,
-        );
-        walls + 0.5 * ((p - m) / sd).powi(2)
+        let gaussians: f64 = self
+            .clamp(values)
+            .iter()
+            .enumerate()
+            .filter_map(|(q, v)| {
+                let (m, sd) = if q == Activity::ROTATION {
+                    Some(self.rotation)
+                } else {
+                    self.trained[q]
+                }?;
+                Some(0.5 * ((v - m) / sd).powi(2))
+            })
+            .sum();
+        walls + gaussians
     }
 }
 

@@ -135,14 +135,8 @@ pub fn overview(
         .map(|p| (p, "given".to_string()))
         .into_iter()
         .collect();
-    for ind in &set.indicators {
-        let keep: Vec<usize> = (0..set.len())
-            .filter(|&i| ind.values[i].is_finite())
-            .collect();
-        let mut sub = set.select(&keep);
-        sub.rv_mps = keep.iter().map(|&i| ind.values[i]).collect();
-        sub.err_mps = vec![1.0; keep.len()];
-        match compute_with(&sub, &[], grid, settings.method) {
+    for (c, ind) in set.indicators.iter().enumerate() {
+        match compute_with(&set.indicator_series(c, 1.0), &[], grid, settings.method) {
             Ok(pg) => {
                 if let Some(top) = pg.peaks(1, 0.0).first()
                     && top.fap < INDICATOR_FAP

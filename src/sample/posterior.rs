@@ -69,8 +69,8 @@ impl PriorSet {
     ///   peak-to-peak range, 10 × its median error and 3 ŝ;
     /// - trend order k: uniform on ±10 R / (span in years)^k;
     /// - activity hyperparameters: log-uniform on their bounds
-    ///   ([`crate::gp::ActivityLayout::new`]), the rotation period Gaussian (the fit's
-    ///   rotation prior) cut at its bounds.
+    ///   ([`crate::gp::ActivityLayout::new`]), the rotation period and any hyperparameter
+    ///   trained on an indicator Gaussian (the fit's priors) cut at its bounds.
     pub fn defaults(set: &RvSet, fit: &Fit, period_range_d: (f64, f64)) -> PriorSet {
         let layout = &fit.layout;
         let n_inst = set.n_instruments();
@@ -193,17 +193,21 @@ impl PriorSet {
                         let a = layout.activity.as_ref().expect("activity roles have a GP");
                         let parameter = format!("activity.{}", a.model.keys()[q]);
                         let (lo, hi) = a.bounds[q];
-                        if q == crate::gp::Activity::ROTATION {
-                            let (m, sd) = a.rotation;
-                            Some(PriorEntry {
-                                parameter,
-                                prior: Prior::gaussian(m, sd, Some((lo, hi)))
-                                    .expect("rotation priors are checked by the fit"),
-                                source: "rotation",
-                                shift: 0.0,
-                            })
+                        let gaussian = if q == crate::gp::Activity::ROTATION {
+                            Some((a.rotation, "rotation"))
                         } else {
-                            default(parameter, Prior::log_uniform(lo, hi))
+                            a.trained[q].map(|p| (p, "indicator"))
+                        };
+                        match gaussian.and_then(|((m, sd), source)| {
+                            Some((Prior::gaussian(m, sd, Some((lo, hi))).ok()?, source))
+                        }) {
+                            Some((prior, source)) => Some(PriorEntry {
+                                parameter,
+                                prior,
+                                source,
+                                shift: 0.0,
+                            }),
+                            None => default(parameter, Prior::log_uniform(lo, hi)),
                         }
                     }
                 }
