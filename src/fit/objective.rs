@@ -231,10 +231,11 @@ mod tests {
 
     /// The mixed analytic/forward-difference gradient against central differences of the
     /// objective itself, on an eccentric two-planet, two-instrument model with trend and
-    /// constraints.
+    /// constraints, without and with an activity GP.
     #[test]
     fn gradient_matches_central_differences() {
         use crate::fit::layout::PlanetSpec;
+        use crate::gp::{Activity, ActivityLayout};
         use crate::target::OrbitShape;
         let n = 60;
         let t: Vec<f64> = (0..n)
@@ -263,74 +264,33 @@ mod tests {
             2,
             2,
         );
-        let theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
-        let obj = Objective {
-            set: &set,
-            layout: &layout,
-            max_ecc: 0.95,
-        };
-        let scale = layout.scales(&set);
-        let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
-        let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
-        let g = obj.gradient(&theta, &fwd);
-        let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
-        for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
-            assert!(
-                (a - b).abs() <= 1e-4 * b.abs().max(1.0),
-                "θ[{j}]: {a} vs {b}"
-            );
-        }
-    }
-
-    /// With an activity GP (quasi-periodic, dense solver) the gradient — `−K⁻¹r` for the
-    /// mean model, central differences for jitters and hyperparameters — against central
-    /// differences of the objective itself, including the rotation prior.
-    #[test]
-    fn gradient_with_an_activity_gp_matches_central_differences() {
-        use crate::fit::layout::PlanetSpec;
-        use crate::gp::{Activity, ActivityLayout};
-        use crate::target::OrbitShape;
-        let n = 50;
-        let t: Vec<f64> = (0..n)
-            .map(|i| -100.0 + 4.1 * i as f64 + (i as f64).sin())
-            .collect();
-        let rv: Vec<f64> = t
-            .iter()
-            .map(|t| 6.0 * (t / 3.1).sin() + 4.0 * (t / 2.0).cos())
-            .collect();
-        let err: Vec<f64> = (0..n).map(|i| 1.0 + 0.2 * (i % 3) as f64).collect();
-        let inst: Vec<usize> = (0..n).map(|i| i % 2).collect();
-        let set = RvSet::from_columns("g", 0.0, t, rv, err, inst, vec!["a".into(), "b".into()]);
-        let spec = PlanetSpec {
-            period_d: 19.5,
-            fix_period: false,
-            k_mps: 5.0,
-            tc_d: 1.0,
-            ecc_vector: (0.1, 0.1),
-            period_prior: None,
-            tc_prior: None,
-            label: "b".into(),
-        };
+        // The same model with a quasi-periodic activity GP (dense solver): `−K⁻¹r` for
+        // the mean model, central differences for jitters and hyperparameters, and the
+        // rotation prior (started off its mean).
         let activity = ActivityLayout::new(Activity::QuasiPeriodic, (12.0, 1.0), 4.0, 200.0);
-        let layout = Layout::new(vec![spec], OrbitShape::Eccentric, 2, 1).with_activity(activity);
-        let mut theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3]);
-        let last = theta.len() - 1;
-        theta[last - 1] = 12.6_f64.ln();
-        let obj = Objective {
-            set: &set,
-            layout: &layout,
-            max_ecc: 0.95,
-        };
-        let scale = layout.scales(&set);
-        let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
-        let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
-        let g = obj.gradient(&theta, &fwd);
-        let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
-        for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
-            assert!(
-                (a - b).abs() <= 1e-4 * b.abs().max(1.0),
-                "θ[{j}]: {a} vs {b}"
-            );
+        let with_gp = layout.clone().with_activity(activity);
+        for layout in [layout, with_gp] {
+            let mut theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
+            if layout.activity.is_some() {
+                let rotation = theta.len() - 2;
+                theta[rotation] = 12.6_f64.ln();
+            }
+            let obj = Objective {
+                set: &set,
+                layout: &layout,
+                max_ecc: 0.95,
+            };
+            let scale = layout.scales(&set);
+            let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
+            let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
+            let g = obj.gradient(&theta, &fwd);
+            let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
+            for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
+                assert!(
+                    (a - b).abs() <= 1e-4 * b.abs().max(1.0),
+                    "θ[{j}]: {a} vs {b}"
+                );
+            }
         }
     }
 
