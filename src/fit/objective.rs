@@ -5,7 +5,7 @@
 use crate::data::RvSet;
 
 use super::layout::{Layout, Role, white_variances};
-use crate::gp::{Points, Solver};
+use crate::gp::{Factor, Points, Solver, Term};
 use crate::model::DAYS_PER_YEAR;
 
 /// Weight of the quadratic penalty `W (e − e_max)²` on eccentricities above the cap.
@@ -56,8 +56,9 @@ impl Objective<'_> {
     /// that planet's RV curve alone (steps `steps`), so one gradient costs about one
     /// likelihood evaluation per planet parameter rather than two full evaluations per
     /// parameter. With an activity GP, `∂f/∂m_i = −(K⁻¹r)_i` (Rasmussen & Williams 2006,
-    /// eq. 5.9 with ∂K/∂m = 0) and the jitters and hyperparameters take central
-    /// differences of the whole objective. Zeros for invalid θ.
+    /// eq. 5.9 with ∂K/∂m = 0); the jitters and hyperparameters are analytic for the
+    /// quasi-periodic kernel ([`dense_gradient`]) and take central differences of the
+    /// whole objective otherwise. Zeros for invalid θ.
     pub fn gradient(&self, theta: &[f64], steps: &[f64]) -> Vec<f64> {
         let (layout, set) = (self.layout, self.set);
         let mut grad = vec![0.0; theta.len()];
@@ -89,6 +90,7 @@ impl Objective<'_> {
             residuals[i] = r;
         }
         let kernel = layout.kernel(theta);
+        let mut hyper: Option<Vec<f64>> = None;
         if let Some(kernel) = &kernel {
             let white = white_variances(&params, set);
             let scale = vec![1.0; n];
@@ -100,8 +102,19 @@ impl Objective<'_> {
             let Ok(factor) = points.factor(kernel, Solver::Auto) else {
                 return grad;
             };
-            for (d, a) in dfdm.iter_mut().zip(factor.solve(&residuals)) {
+            let alpha = factor.solve(&residuals);
+            for (d, a) in dfdm.iter_mut().zip(&alpha) {
                 *d = -a;
+            }
+            if let (Factor::Dense(chol), [term @ Term::QuasiPeriodic { .. }]) =
+                (&factor, kernel.terms.as_slice())
+            {
+                let (w_diag, g) = dense_gradient(chol, &alpha, term, &set.time_d);
+                dfds.iter_mut().for_each(|d| *d = 0.0);
+                for (i, w) in w_diag.iter().enumerate() {
+                    dfds[set.instrument[i]] += w;
+                }
+                hyper = Some(self.hyper_gradient(theta, g));
             }
         }
         // Central differences with steps 100 × the forward ones (closer to the
@@ -120,7 +133,10 @@ impl Objective<'_> {
                     .filter(|&i| set.instrument[i] == k)
                     .map(|i| dfdm[i])
                     .sum(),
-                Role::Jitter(_) | Role::Activity(_) if kernel.is_some() => by_difference(j),
+                Role::Activity(q) if hyper.is_some() => hyper.as_ref().map_or(0.0, |h| h[q]),
+                Role::Jitter(_) | Role::Activity(_) if kernel.is_some() && hyper.is_none() => {
+                    by_difference(j)
+                }
                 Role::Jitter(g) => {
                     theta[j]
                         * (0..set.n_instruments())
@@ -174,6 +190,68 @@ impl Objective<'_> {
         }
         grad
     }
+}
+
+impl Objective<'_> {
+    /// Gradient in the activity hyperparameters' logarithms: the likelihood part `g`
+    /// ([`dense_gradient`], zero for a value outside its bounds, where the model uses the
+    /// bound) plus central differences of the bounds' walls and the priors.
+    fn hyper_gradient(&self, theta: &[f64], g: [f64; 4]) -> Vec<f64> {
+        let a = self
+            .layout
+            .activity
+            .as_ref()
+            .expect("hyperparameters come with a GP");
+        let ln: Vec<f64> = self
+            .layout
+            .activity_values(theta)
+            .iter()
+            .map(|v| v.ln())
+            .collect();
+        let penalty = |x: &[f64]| a.penalty(&x.iter().map(|v| v.exp()).collect::<Vec<f64>>());
+        let walls = gradient(&penalty, &ln, &vec![1e-6; ln.len()]);
+        ln.iter()
+            .zip(&a.bounds)
+            .enumerate()
+            .map(|(q, (x, (lo, hi)))| {
+                let inside = (lo.ln()..=hi.ln()).contains(x);
+                walls[q] + if inside { g[q] } else { 0.0 }
+            })
+            .collect()
+    }
+}
+
+/// With `W = K⁻¹ − ααᵀ` (α = K⁻¹r, K factorised by `chol`, one quasi-periodic `term` at
+/// times `t`): the diagonal of `W`, `∂(−ln L)/∂K_ii = ½ W_ii`, and
+/// `∂(−ln L)/∂ln θ_q = ½ Σ_ij W_ij ∂K_ij/∂ln θ_q` for `θ = (h, λ, P, w)` (Rasmussen &
+/// Williams 2006, eq. 5.9).
+fn dense_gradient(
+    chol: &nalgebra::Cholesky<f64, nalgebra::Dyn>,
+    alpha: &[f64],
+    term: &Term,
+    t: &[f64],
+) -> (Vec<f64>, [f64; 4]) {
+    let kinv = chol.inverse();
+    let at_zero = term.log_gradient(0.0).expect("a quasi-periodic term");
+    let mut g = [0.0; 4];
+    let mut diag = Vec::with_capacity(t.len());
+    for i in 0..t.len() {
+        let wii = kinv[(i, i)] - alpha[i] * alpha[i];
+        diag.push(wii);
+        for q in 0..4 {
+            g[q] += 0.5 * wii * at_zero[q];
+        }
+        for j in 0..i {
+            let w = kinv[(i, j)] - alpha[i] * alpha[j];
+            let d = term
+                .log_gradient(t[i] - t[j])
+                .expect("a quasi-periodic term");
+            for q in 0..4 {
+                g[q] += w * d[q];
+            }
+        }
+    }
+    (diag, g)
 }
 
 /// Central-difference gradient of `f` at `x` with steps `h`.

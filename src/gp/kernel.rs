@@ -115,6 +115,31 @@ impl Term {
         }
     }
 
+    /// Derivatives of the quasi-periodic covariance at lag `tau_d` with respect to the
+    /// natural logarithms of `(h, λ, P, w)`, m²/s² (from differentiating the formula of
+    /// [`Term::QuasiPeriodic`]: `2k`, `k τ²/λ²`, `k πτ sin(2πτ/P)/(2w²P)`,
+    /// `k sin²(πτ/P)/w²`); `None` for other terms.
+    pub fn log_gradient(&self, tau_d: f64) -> Option<[f64; 4]> {
+        let Term::QuasiPeriodic {
+            evolution_d,
+            period_d,
+            smoothness,
+            ..
+        } = *self
+        else {
+            return None;
+        };
+        let k = self.covariance(tau_d);
+        let x = std::f64::consts::PI * tau_d / period_d;
+        let w2 = smoothness * smoothness;
+        Some([
+            2.0 * k,
+            k * tau_d * tau_d / (evolution_d * evolution_d),
+            k * x * (2.0 * x).sin() / (2.0 * w2),
+            k * x.sin().powi(2) / w2,
+        ])
+    }
+
     /// The term as `e^{−cτ} [a cos(dτ) + b sin(dτ)]` (Foreman-Mackey et al. 2017, eq. 23
     /// for `Q > 1/2`), or `None` for a term of another form.
     pub fn exp_term(&self) -> Option<ExpTerm> {
@@ -194,6 +219,31 @@ mod tests {
                 * (-w0 * t / (2.0 * q)).exp()
                 * ((eta * w0 * t).cos() + (eta * w0 * t).sin() / (2.0 * eta * q));
             assert!((term.covariance(tau) - closed).abs() < 1e-12, "{tau}");
+        }
+    }
+
+    /// The analytic log-parameter derivatives of the quasi-periodic kernel against central
+    /// differences of the covariance itself.
+    #[test]
+    fn quasi_periodic_log_gradient() {
+        let params = [2.5_f64, 30.0, 11.0, 0.6];
+        let term = |p: &[f64; 4]| Term::QuasiPeriodic {
+            amplitude_mps: p[0],
+            evolution_d: p[1],
+            period_d: p[2],
+            smoothness: p[3],
+        };
+        for tau in [0.0, 1.7, -6.2, 23.0] {
+            let g = term(&params).log_gradient(tau).unwrap();
+            for q in 0..4 {
+                let h = 1e-6_f64;
+                let mut up = params;
+                up[q] *= h.exp();
+                let mut down = params;
+                down[q] *= (-h).exp();
+                let fd = (term(&up).covariance(tau) - term(&down).covariance(tau)) / (2.0 * h);
+                assert!((g[q] - fd).abs() < 1e-7 * fd.abs().max(1.0), "{tau} {q}");
+            }
         }
     }
 
