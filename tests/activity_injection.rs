@@ -135,7 +135,8 @@ fn gp_recovers_k_better_than_white_noise() {
 /// invented line-width unit, 0.4 units per m/s, plus white noise of 0.5 units). The
 /// trained rotation period and evolution timescale lie within 3σ of the injected ones,
 /// become Gaussian priors of the RV fit (the rotation prior replaced), and the RV fit
-/// with them recovers K within 3σ.
+/// with them recovers K within 3σ. An indicator of white noise alone gives no prior on
+/// the evolution timescale.
 #[test]
 fn indicator_training_gives_priors_for_the_rv_fit() {
     let mut rng = ChaCha8Rng::seed_from_u64(7);
@@ -201,6 +202,15 @@ fn indicator_training_gives_priors_for_the_rv_fit() {
     .unwrap();
     let a = f.layout.activity.as_ref().unwrap();
     assert_eq!(a.rotation, (p, sp));
+    // An indicator of white noise alone pins no evolution timescale (the fit takes it to
+    // a bound): it does not become a prior.
+    let mut noise = set.clone();
+    noise.indicators[0].values = (0..n)
+        .map(|_| 50.0 + rng.sample::<f64, _>(StandardNormal))
+        .collect();
+    let none = fit::train_activity(&noise, &options).unwrap();
+    println!("trained on white noise: {none:?}");
+    assert!(none[1].is_none(), "{none:?}");
     assert_eq!(a.trained[1], priors[1]);
     let k = f.planets[0].k_mps;
     println!("K with trained priors: {} ± {}", k.value, k.plus);

@@ -405,7 +405,8 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
 /// Gaussian prior `(best fit, mean of its curvature errors)` for the RV fit (hyperparameters
 /// trained on another series of the same star, as Haywood et al. 2014 did with its
 /// light curve; from memory). Hyperparameters
-/// whose curvature error is not defined stay free. All `None` without an indicator.
+/// whose curvature error is not defined, spans more than a factor 2
+/// ([`TRAINED_SD_LN`]) or comes from a bound (the value at it) stay free. All `None` without an indicator.
 ///
 /// # Errors
 /// [`FitError`] when the indicator series cannot be fitted (too few points, no rotation
@@ -440,14 +441,27 @@ pub fn train_activity(
             ..*options
         },
     )?;
+    let layout = trained
+        .layout
+        .activity
+        .as_ref()
+        .expect("the trained fit has the GP");
     for (q, (key, s)) in trained.activity.iter().enumerate() {
         let sd = 0.5 * (s.minus + s.plus);
-        if !key.starts_with("amplitude") && sd > 0.0 {
+        // The curvature error of the logarithm, ln(1 + plus/value).
+        let sd_ln = (s.plus / s.value).ln_1p();
+        let informative = sd > 0.0 && sd_ln < TRAINED_SD_LN && !layout.at_bound(q, s.value);
+        if !key.starts_with("amplitude") && informative {
             priors[q] = Some((s.value, sd));
         }
     }
     Ok(priors)
 }
+
+/// Largest 1σ error of a trained hyperparameter's logarithm (ln 2: the indicator pins it
+/// within a factor 2) for it to become a prior of the RV fit; a looser one would be a
+/// prior in name only (a choice of heft's).
+pub const TRAINED_SD_LN: f64 = std::f64::consts::LN_2;
 
 /// Standard deviation of the RVs about each instrument's mean, m/s.
 fn centred_sd(set: &RvSet) -> f64 {
@@ -656,7 +670,17 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
             };
             (key.to_string(), summary)
         })
-        .collect();
+        .collect::<Vec<_>>();
+    if let Some(a) = &layout.activity {
+        for (q, (key, s)) in activity.iter().enumerate() {
+            if a.at_bound(q, s.value) {
+                warnings.push(format!(
+                    "activity {key} = {} is at its bound {:?}: the data do not constrain it there and its error is the bound's",
+                    s.value, a.bounds[q]
+                ));
+            }
+        }
+    }
     for (i, p) in params.planets.iter().enumerate() {
         if p.ecc() >= options.max_ecc - 1e-6 {
             warnings.push(format!(

@@ -200,6 +200,13 @@ impl ActivityLayout {
         self
     }
 
+    /// Whether hyperparameter `q` at `value` sits at (within 0.1 % of) one of its bounds,
+    /// where its curvature error is the wall's, not the data's.
+    pub fn at_bound(&self, q: usize, value: f64) -> bool {
+        let (lo, hi) = self.bounds[q];
+        !(value > lo * 1.001 && value < hi / 1.001)
+    }
+
     /// `values` moved into their bounds (the model is evaluated there; [`Self::penalty`]
     /// charges the excess).
     pub fn clamp(&self, values: &[f64]) -> Vec<f64> {
