@@ -25,6 +25,7 @@ mod contain;
 pub mod data;
 pub mod derive;
 pub mod fit;
+pub mod gp;
 pub mod limits;
 pub mod model;
 pub mod orbit;

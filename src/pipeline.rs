@@ -18,6 +18,7 @@ use crate::derive::{self, DeriveError, OrbitDraws, PlanetDerived, StarDraws, Tra
 use crate::fit::{
     self, FitError, FitOptions, PlanetSpec, Search, SearchSettings, SignalCount, SignalTest,
 };
+use crate::gp::Activity;
 use crate::limits::{Budget, BudgetReport};
 use crate::model::Noise;
 use crate::periodogram::{self, Overview, OverviewSettings, PeriodogramError};
@@ -61,7 +62,9 @@ pub struct Prior {
     pub kind: &'static str,
     /// Description with values and units.
     pub detail: String,
-    /// Where it comes from: `default`, `transit`, `target file` or `request`.
+    /// Where it comes from: `default`, `transit`, `target file`, `request`, `rotation`
+    /// (the star's rotation period, for the activity model) or `indicator` (the activity
+    /// model trained on an indicator).
     pub source: &'static str,
 }
 
@@ -270,8 +273,30 @@ pub struct Analysis {
     pub budget: Option<BudgetReport>,
 }
 
-/// Search settings from a target file's settings.
-pub fn search_settings(s: &Settings) -> SearchSettings {
+/// Index of the indicator column `name` in `set`.
+///
+/// # Errors
+/// [`FitError::Start`] naming the indicator columns the data have.
+pub fn indicator_column(set: &RvSet, name: &str) -> Result<usize, FitError> {
+    set.indicators
+        .iter()
+        .position(|i| i.name == name)
+        .ok_or_else(|| {
+            let have: Vec<&str> = set.indicators.iter().map(|i| i.name.as_str()).collect();
+            FitError::Start(format!(
+                "activity indicator `{name}`: no such indicator column in the data (they have: {})",
+                if have.is_empty() {
+                    "none".to_string()
+                } else {
+                    have.join(", ")
+                }
+            ))
+        })
+}
+
+/// Search settings from a target file's settings and star (its rotation period centres
+/// the activity model's rotation prior).
+pub fn search_settings(s: &Settings, star: &Star) -> SearchSettings {
     SearchSettings {
         period_min_d: s.period_min_d,
         period_max_d: s.period_max_d,
@@ -281,6 +306,10 @@ pub fn search_settings(s: &Settings) -> SearchSettings {
         options: FitOptions {
             shape: s.orbit,
             trend: s.trend,
+            activity: s.activity,
+            rotation_d: star
+                .rotation_d
+                .map(|p| crate::gp::rotation_prior(p, star.rotation_err_d)),
             ..FitOptions::default()
         },
     }
@@ -333,7 +362,10 @@ pub fn run_target_from(
     let preparation = target.preparation();
     let (set, log) = prep::prepare(&raw, &preparation)?;
     prep::check_offset_priors(&set, &target.offset_priors)?;
-    let mut search = search_settings(&target.settings);
+    let mut search = search_settings(&target.settings, &target.star);
+    if let Some(name) = &target.settings.activity_indicator {
+        search.options.activity_indicator = Some(indicator_column(&set, name)?);
+    }
     search.options.offset_priors = target.offset_priors.clone();
     if target.settings.indicator_terms != IndicatorTerms::None {
         search.options.regressors = set.indicators.len();
@@ -388,7 +420,7 @@ pub fn run_target_from(
         gone
     };
     if !out_of_time("periodogram report") {
-        analysis.periodograms = Some(periodogram_report(&analysis)?);
+        analysis.periodograms = Some(periodogram_report(&analysis, target.star.rotation_d)?);
     }
     if target.settings.audit && !analysis.search.fit.planets.is_empty() && !out_of_time("audit") {
         let ctx = audit::Context {
@@ -415,14 +447,16 @@ pub fn run_target_from(
 const REPORT_BOOTSTRAP: usize = 200;
 
 /// The periodogram report on the search grid: the data's periodogram, window and
-/// indicators, and the residual periodogram after each signal the search fitted.
-fn periodogram_report(a: &Analysis) -> Result<Overview, PeriodogramError> {
+/// indicators (peaks near the rotation period `rotation_d` flagged), and the residual
+/// periodogram after each signal the search fitted.
+fn periodogram_report(a: &Analysis, rotation_d: Option<f64>) -> Result<Overview, PeriodogramError> {
     let steps = &a.search.steps;
     let grid = steps[0].periodogram.grid;
     let settings = OverviewSettings {
         method: periodogram::Method::FAST,
         bootstrap: REPORT_BOOTSTRAP,
         seed: a.seed,
+        rotation_d,
         ..OverviewSettings::default()
     };
     let mut ov = periodogram::overview(&a.set, &[], &grid, &settings)?;
@@ -452,6 +486,8 @@ pub fn analyse(
     req: Request,
     progress: &mut dyn FnMut(&Progress),
 ) -> Result<Analysis, PipelineError> {
+    let mut req = req;
+    req.search.options.activity_priors = fit::train_activity(&req.set, &req.search.options)?;
     let mut known = Vec::new();
     let set = &req.set;
     let mut priors = Vec::new();
@@ -531,6 +567,38 @@ pub fn analyse(
     let (search, set, log) = search_with_outliers(&req, &known, &warm)?;
     let set = &set;
     let signals = fit::signal_tests(set, &search, known.len())?;
+    if req.sampler.is_none()
+        && let Some(a) = &search.fit.layout.activity
+    {
+        for (key, (lo, hi)) in a.model.keys().iter().zip(&a.bounds) {
+            priors.push(Prior {
+                parameter: format!("activity.{key}"),
+                kind: "bound",
+                detail: format!("{lo} to {hi}"),
+                source: "default",
+            });
+        }
+        priors.push(Prior {
+            parameter: "activity.rotation_d".into(),
+            kind: "gaussian",
+            detail: format!("{} ± {} d", a.rotation.0, a.rotation.1),
+            source: if a.trained.iter().any(Option::is_some) {
+                "indicator"
+            } else {
+                "rotation"
+            },
+        });
+        for (key, p) in a.model.keys().iter().zip(&a.trained) {
+            if let Some((m, sd)) = p {
+                priors.push(Prior {
+                    parameter: format!("activity.{key}"),
+                    kind: "gaussian",
+                    detail: format!("{m} ± {sd}"),
+                    source: "indicator",
+                });
+            }
+        }
+    }
 
     let mut budget = None;
     let posterior = match &req.sampler {
@@ -654,6 +722,12 @@ fn search_with_outliers(
     warm: &[PlanetSpec],
 ) -> Result<(Search, RvSet, DataLog), PipelineError> {
     let policy = req.outliers;
+    if policy.mode == OutlierMode::StudentT && req.search.options.activity != Activity::None {
+        return Err(FitError::Options(
+            "the Student-t likelihood cannot be combined with an activity GP (whose likelihood is Gaussian): use outliers \"clip\" or \"keep\"".into(),
+        )
+        .into());
+    }
     let mut log = req.log.clone();
     log.n_fitted = req.set.len();
     log.outlier_search = prep::OutlierLog {

@@ -215,6 +215,12 @@ pub struct Settings {
     /// Also sample the posterior of the baseline and of every model variant in the audit
     /// (default false: maximum likelihood; each posterior costs as much as the run's own).
     pub audit_posterior: bool,
+    /// Stellar-activity noise model: `none` (default), `quasiperiodic` or `oscillator`
+    /// (Gaussian processes; need `star.rotation_d`, which centres the rotation prior).
+    pub activity: crate::gp::Activity,
+    /// Indicator column on which the activity model's hyperparameters are trained first
+    /// (their fit becomes Gaussian priors of the RV fit; default none).
+    pub activity_indicator: Option<String>,
     /// Start `heft run` from the latest complete run's solution (default false: every run
     /// starts afresh, so identical inputs give identical results).
     pub warm_start: bool,
@@ -296,6 +302,8 @@ impl Default for Settings {
             indicator_terms: IndicatorTerms::None,
             time_budget_s: None,
             max_memory_mb: None,
+            activity: crate::gp::Activity::None,
+            activity_indicator: None,
         }
     }
 }
@@ -930,6 +938,23 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
             mean_mps: mean,
             sd_mps: sd,
         });
+    }
+
+    if s.activity != crate::gp::Activity::None && star.rotation_d.is_none() {
+        return Err(invalid(
+            "settings.activity",
+            format!(
+                "the {:?} activity model needs the rotation period star.rotation_d",
+                s.activity
+            ),
+        ));
+    }
+
+    if s.activity_indicator.is_some() && s.activity == crate::gp::Activity::None {
+        return Err(invalid(
+            "settings.activity_indicator",
+            "needs an activity model: set settings.activity".into(),
+        ));
     }
 
     let priors = prior_choices(raw.priors, &invalid)?;

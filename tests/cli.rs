@@ -717,3 +717,142 @@ fn run_shows_every_data_change() {
         .sum();
     assert_eq!(combined, binning["n_before"].as_u64().unwrap());
 }
+
+/// `--activity` (design.md contract): the activity block of results.json with every
+/// hyperparameter as an estimate, the rotation prior recorded; without `--rotation-d`, or
+/// with an unknown model, exit 2 with a message naming the option.
+#[test]
+fn fit_with_an_activity_model() {
+    let data = repo("tests/reference/twobody/one_planet.csv");
+    let args = |model: &'static str| {
+        vec![
+            "fit",
+            data.as_str(),
+            "--period",
+            "12.3047",
+            "--planets",
+            "1",
+            "--circular",
+            "--activity",
+            model,
+        ]
+    };
+    let mut ok = args("oscillator");
+    ok.extend(["--rotation-d", "17.0", "--json"]);
+    let doc = json_of(&heft(&ok));
+    let act = &doc["activity"];
+    assert_eq!(act["model"], "oscillator");
+    assert_eq!(act["rotation_prior_d"]["mean"].as_f64(), Some(17.0));
+    // Without --rotation-err-d the prior's sd is 10 % of the period (docs/methods.md).
+    assert!((act["rotation_prior_d"]["sd"].as_f64().unwrap() - 1.7).abs() < 1e-12);
+    for key in [
+        "amplitude_mps",
+        "amplitude_half_mps",
+        "rotation_d",
+        "quality",
+    ] {
+        assert!(is_estimate(&act["parameters"][key]), "{key}: {act}");
+    }
+    assert!(
+        doc["priors"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|p| p["parameter"] == "activity.rotation_d" && p["source"] == "rotation")
+    );
+    let none = json_of(&heft(&[
+        "fit",
+        &data,
+        "--period",
+        "12.3047",
+        "--planets",
+        "1",
+        "--json",
+    ]));
+    assert!(none.get("activity").is_none());
+
+    let out = heft(&args("quasiperiodic"));
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("--rotation-d"), "{}", stderr(&out));
+    let out = heft(&args("spots"));
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("spots"), "{}", stderr(&out));
+    let mut unknown = args("quasiperiodic");
+    unknown.extend(["--rotation-d", "17.0", "--activity-indicator", "s_index"]);
+    let out = heft(&unknown);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        stderr(&out).contains("activity indicator `s_index`: no such indicator column"),
+        "{}",
+        stderr(&out)
+    );
+}
+
+/// The audit compares K and mass with and without the activity GP: with a rotation period
+/// and no activity model, a quasi-periodic variant is fitted; with an activity model,
+/// a variant without it. Both carry the planet's K and mass.
+#[test]
+fn audit_compares_with_and_without_the_activity_model() {
+    let data = repo("tests/reference/gls_data.csv");
+    let base = [
+        "audit",
+        data.as_str(),
+        "--period",
+        "17.3",
+        "--mstar-msun",
+        "0.9",
+        "--rotation-d",
+        "6.1",
+        "--json",
+    ];
+    let variant = |doc: &Value, prefix: &str| {
+        doc["audit"]["planets"][0]["variants"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|v| v["name"].as_str().unwrap().starts_with(prefix))
+            .cloned()
+            .unwrap_or_else(|| panic!("no variant {prefix}"))
+    };
+    let doc = json_of(&heft(&base));
+    let with = variant(&doc, "with a quasi-periodic activity model");
+    assert!(is_estimate(&with["planet"]["k_mps"]));
+    assert!(is_estimate(&with["planet"]["mass_mearth"]));
+    let mut gp = base.to_vec();
+    gp.extend(["--activity", "oscillator"]);
+    let doc = json_of(&heft(&gp));
+    assert_eq!(doc["activity"]["model"], "oscillator");
+    let without = variant(&doc, "without the activity model");
+    assert!(is_estimate(&without["planet"]["k_mps"]));
+    assert!(is_estimate(&without["planet"]["mass_mearth"]));
+}
+
+/// `heft periodogram --rotation-d`: a peak near half the rotation period is flagged
+/// (data: the 17.31 d and 3.127 d sinusoids of tests/reference/make_gls_fixture.py).
+#[test]
+fn periodogram_flags_rotation_harmonics() {
+    let out = heft(&[
+        "periodogram",
+        &repo("tests/reference/gls_data.csv"),
+        "--rotation-d",
+        "34.0",
+        "--bootstrap",
+        "0",
+        "--json",
+    ]);
+    let doc = json_of(&out);
+    let peaks = doc["peaks"].as_array().unwrap();
+    let top = peaks
+        .iter()
+        .find(|p| (p["period"].as_f64().unwrap() - 17.31).abs() < 0.3)
+        .expect("the 17.31 d peak");
+    let flag = top["near_rotation"].as_str().unwrap();
+    assert!(flag.starts_with("half the rotation period"), "{flag}");
+    assert!(flag.ends_with("given"), "{flag}");
+    assert!(
+        peaks
+            .iter()
+            .filter(|p| (p["period"].as_f64().unwrap() - 3.127).abs() < 0.05)
+            .all(|p| p.get("near_rotation").is_none())
+    );
+}

@@ -382,3 +382,54 @@ fn render_names_the_bad_file() {
     let out = heft(&["render", dir.path().join("nowhere").to_str().unwrap()]);
     assert_eq!(out.status.code(), Some(2));
 }
+
+/// With an activity GP (target file `settings.activity`): `activity_model.csv`, the
+/// residuals in `data_used.csv` with the activity model removed (residual = rv − model −
+/// activity), the activity figure (one marker per epoch, the model line and its ±1σ
+/// lines) on the page, and `heft render` rebuilds it from the saved files.
+#[test]
+fn activity_report_shows_the_model_and_removes_it() {
+    let dir = tempfile::tempdir().unwrap();
+    let target = dir.path().join("active.toml");
+    fs::write(
+        &target,
+        format!(
+            "name = \"Invented active star\"\n[star]\nmass_msun = 0.8\nrotation_d = 6.1\n\
+             [[data]]\nfile = \"{}\"\n[settings]\nactivity = \"oscillator\"\naudit = false\nmax_signals = 1\n",
+            repo("tests/reference/gls_data.csv")
+        ),
+    )
+    .unwrap();
+    let (run_dir, doc) = run(target.to_str().unwrap(), dir.path());
+    assert_eq!(doc["activity"]["model"], "oscillator");
+    let n_points = doc["data"]["n_points"].as_u64().unwrap() as usize;
+    let used = read(&run_dir.join("data_used.csv"));
+    assert!(used.lines().next().unwrap().starts_with(
+        "file,row,instrument,time_bjd,rv_mps,rv_err_mps,model_mps,residual_mps,activity_mps"
+    ));
+    for line in used.lines().skip(1) {
+        let f: Vec<f64> = line
+            .split(',')
+            .skip(3)
+            .map(|x| x.parse().unwrap())
+            .collect();
+        assert!(
+            (f[1] - f[3] - f[4] - f[5]).abs() < 1e-9 * f[1].abs().max(1.0),
+            "{line}"
+        );
+    }
+    let curve = read(&run_dir.join("activity_model.csv"));
+    assert!(curve.starts_with("time_bjd,mean_mps,sd_mps\n"));
+    let svg = read(&run_dir.join("activity.svg"));
+    assert_eq!(count(&svg, r#"class="epoch""#), n_points);
+    assert_eq!(count(&svg, r#"class="activity-model""#), 1);
+    assert_eq!(count(&svg, r#"class="activity-band""#), 2);
+    has_axes(&svg, &["RV − planets [m/s]"]);
+    let html = read(&run_dir.join("report.html"));
+    assert!(html.contains("activity model removed"));
+    check_page(&html);
+    fs::remove_file(run_dir.join("activity.svg")).unwrap();
+    let out = heft(&["render", run_dir.to_str().unwrap()]);
+    assert!(out.status.success());
+    assert_eq!(read(&run_dir.join("activity.svg")), svg);
+}

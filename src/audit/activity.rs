@@ -23,9 +23,7 @@ use statrs::function::gamma::gamma_ur;
 use super::AuditError;
 use super::common::{Refitter, SineFit, centred_indicators, sine_fit};
 use crate::data::RvSet;
-
-/// Fractional distance from a rotation harmonic that counts as "near".
-const ROTATION_TOLERANCE: f64 = 0.05;
+use crate::gp::near_rotation;
 
 /// An observing season.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -365,21 +363,6 @@ fn indicator_peaks(refit: &Refitter, f: f64) -> Result<Vec<IndicatorPeak>, Audit
         }
     }
     Ok(out)
-}
-
-/// "rotation period", "half the rotation period", … when `period` is within 5 % of
-/// `p_rot / h`, h = 1, 2, 3.
-fn near_rotation(period: f64, p_rot: f64) -> Option<String> {
-    let names = [
-        "the rotation period",
-        "half the rotation period",
-        "a third of the rotation period",
-    ];
-    (1..=3).find_map(|h| {
-        let target = p_rot / h as f64;
-        ((period / target - 1.0).abs() < ROTATION_TOLERANCE)
-            .then(|| format!("{} ({target:.3} d)", names[h - 1]))
-    })
 }
 
 #[cfg(test)]

@@ -5,9 +5,11 @@
 //! instruments; each other trend order (0, 1, 2); without each other signal; with one more
 //! signal (the strongest residual periodogram peak); a linear term in each activity
 //! indicator (centred per instrument); a signal at the stellar rotation period when it is
-//! known; and, for two signals near a 2:1 period ratio, one eccentric planet at the outer
+//! known; the stellar-activity GP switched off when the baseline has one, or a
+//! quasi-periodic GP ([`crate::gp::Activity::QuasiPeriodic`]) added when it has none and
+//! the rotation period is known; and, for two signals near a 2:1 period ratio, one eccentric planet at the outer
 //! period instead (the degeneracy of Anglada-Escudé, López-Morales & Chambers 2010, ApJ
-//! 709, 168); and, under a Gaussian likelihood, a Student-t likelihood (on the points
+//! 709, 168); and, under a Gaussian likelihood without an activity GP, a Student-t likelihood (on the points
 //! before outlier clipping when points were clipped: the comparison of clipping with
 //! down-weighting; a variant fitted to other points is never marked competitive, as its
 //! BIC is not comparable). All are maximum-likelihood refits started from the baseline.
@@ -28,6 +30,7 @@ use super::PlanetValues;
 use super::common::{Refitter, centred_indicators};
 use crate::data::RvSet;
 use crate::fit::{Fit, FitOptions, PlanetSpec, fit, next_label};
+use crate::gp::{Activity, rotation_prior};
 use crate::model::{Noise, point_log_likelihood};
 use crate::periodogram::sinusoid_at;
 use crate::prep::OutlierPolicy;
@@ -210,7 +213,8 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
             with(&|o| o.regressors = set.indicators.len()),
         ));
     }
-    if opts.noise == Noise::Gaussian {
+    // (An activity GP's likelihood is Gaussian by construction.)
+    if opts.noise == Noise::Gaussian && opts.activity == Activity::None {
         let dof = OutlierPolicy::default().dof;
         let (name, data) = match &refit.before_clipping {
             Some(all) => (
@@ -236,6 +240,24 @@ pub fn variants(refit: &Refitter, more: Option<&Fit>) -> Vec<Vec<Variant>> {
             set.clone(),
             extra,
             opts.clone(),
+        ));
+    }
+    if opts.activity != Activity::None {
+        jobs.push((
+            "without the activity model".into(),
+            set.clone(),
+            specs.clone(),
+            with(&|o| o.activity = Activity::None),
+        ));
+    } else if let Some((p_rot, p_err)) = refit.settings.rotation_d {
+        jobs.push((
+            format!("with a quasi-periodic activity model ({p_rot} d)"),
+            set.clone(),
+            specs.clone(),
+            with(&|o| {
+                o.activity = Activity::QuasiPeriodic;
+                o.rotation_d = Some(rotation_prior(p_rot, p_err));
+            }),
         ));
     }
     for (inner, outer) in near_two_to_one(&specs) {

@@ -1,10 +1,11 @@
-//! Benchmarks (not tests): likelihood evaluations per second, Kepler solves per second
+//! Benchmarks (not tests): likelihood evaluations per second, GP log-likelihood time
+//! against N for the dense and semiseparable solvers, Kepler solves per second
 //! against a plain Newton iteration measured in the same run, and wall time to a
 //! converged posterior on the demo target, the demo's audit (time per part), and batch
 //! throughput (targets per minute).
 //!
 //! Run with `cargo run --release --bin bench [-- DEMO.toml]` (default
-//! `data-demo/ostrel-12.toml`).
+//! `data-demo/ostrel-12.toml`); `-- --gp` runs the GP solver timings alone.
 //!
 //! On Linux the figures are also given per second on a CPU (this thread's or the
 //! process's CPU time from `/proc`), which other work on the machine inflates far less
@@ -14,6 +15,7 @@ use std::hint::black_box;
 use std::time::Instant;
 
 use heft::data::RvSet;
+use heft::gp::{Kernel, Points, Solver, Term};
 use heft::model::Params;
 use heft::orbit::{KeplerSolver, Orbit};
 
@@ -188,6 +190,79 @@ fn likelihood_per_second(planets: usize, n: usize) -> Rate {
     }
 }
 
+/// Seconds per GP log-likelihood evaluation (kernel, factorisation and solve) of two
+/// oscillator terms on `n` invented epochs with `solver`: repeated for at least
+/// `min_seconds` of wall time; (wall, CPU where known).
+fn gp_seconds(n: usize, solver: Solver, min_seconds: f64) -> (f64, Option<f64>) {
+    let set = data(n);
+    let white = vec![2.25; n];
+    let scale = vec![1.0; n];
+    let points = Points {
+        time_d: &set.time_d,
+        white: &white,
+        scale: &scale,
+    };
+    let kernel = Kernel {
+        terms: vec![
+            Term::Oscillator {
+                amplitude_mps: 4.0,
+                period_d: 23.0,
+                quality: 5.0,
+            },
+            Term::Oscillator {
+                amplitude_mps: 2.0,
+                period_d: 11.5,
+                quality: 5.0,
+            },
+        ],
+    };
+    let mut evals = 0usize;
+    let mut sum = 0.0;
+    let (wall, cpu) = timed(|| {
+        let start = Instant::now();
+        while evals == 0 || start.elapsed().as_secs_f64() < min_seconds {
+            sum += points
+                .log_likelihood(black_box(&kernel), solver, black_box(&set.rv_mps))
+                .expect("the bench covariance is positive definite");
+            evals += 1;
+        }
+    });
+    black_box(sum);
+    (wall / evals as f64, cpu.map(|c| c / evals as f64))
+}
+
+/// GP log-likelihood time against N for the dense and the semiseparable solver, measured
+/// in turn at each N, and their ratio. The dense solver stops at N = 4000 (its matrix
+/// alone is 8 N² bytes: 800 MB at N = 10 000).
+fn gp_scaling() {
+    println!(
+        "GP log-likelihood, two oscillator terms (ms per evaluation on a CPU where known, else wall):"
+    );
+    let ms = |(w, c): (f64, Option<f64>)| 1e3 * c.unwrap_or(w);
+    let mut semi_per_point = Vec::new();
+    for n in [100, 300, 1000, 2000, 4000, 10_000] {
+        let semi = ms(gp_seconds(n, Solver::Semiseparable, 0.5));
+        semi_per_point.push(semi / n as f64);
+        if n <= 4000 {
+            let dense = ms(gp_seconds(n, Solver::Dense, 0.5));
+            println!(
+                "  N = {n:>5}: dense {dense:10.3} ms, semiseparable {semi:8.4} ms; dense / semiseparable = {:.0} ×",
+                dense / semi
+            );
+        } else {
+            println!("  N = {n:>5}: semiseparable {semi:8.4} ms (dense not run)");
+        }
+    }
+    let (lo, hi) = semi_per_point
+        .iter()
+        .fold((f64::INFINITY, 0.0_f64), |(a, b), &x| (a.min(x), b.max(x)));
+    println!(
+        "  semiseparable time per point from N = 100 to 10 000: {:.2} to {:.2} µs (linear in N when these agree)",
+        1e3 * lo,
+        1e3 * hi
+    );
+}
+
 /// Wall time of the demo's audit (maximum-likelihood fit, then the audit), per part.
 fn audit_timing(demo: &str) {
     let mut target = match heft::target::load(std::path::Path::new(demo)) {
@@ -298,6 +373,10 @@ fn main() {
     let demo = std::env::args()
         .nth(1)
         .unwrap_or_else(|| "data-demo/ostrel-12.toml".into());
+    if demo == "--gp" {
+        println!("load average at start {}", load_average());
+        return gp_scaling();
+    }
     let profile = if cfg!(debug_assertions) {
         "dev profile: heft at opt-level 1, dependencies at 3"
     } else {
@@ -336,6 +415,7 @@ fn main() {
             );
         }
     }
+    gp_scaling();
     match heft::target::load(std::path::Path::new(&demo)) {
         Ok(mut target) => {
             // Timed with sampling on and the audit off, whatever the target file says.

@@ -8,18 +8,12 @@ use heft::report::{audit_json, summary_text};
 use super::Failure;
 use super::fit::{FitArgs, analyse};
 
-/// Arguments of `heft audit`: those of `heft fit` (at least one --period), and the
-/// stellar rotation period when known.
+/// Arguments of `heft audit`: those of `heft fit` (at least one --period; with
+/// --rotation-d the audit also tests a signal at the rotation period).
 #[derive(clap::Args, Debug)]
 pub struct AuditArgs {
     #[command(flatten)]
     fit: FitArgs,
-    /// Stellar rotation period, days: the audit also tests a signal there.
-    #[arg(long)]
-    rotation_d: Option<f64>,
-    /// 1σ uncertainty of the rotation period, days.
-    #[arg(long, requires = "rotation_d", default_value_t = 0.0)]
-    rotation_err_d: f64,
 }
 
 /// Runs the command: fits the data with the claimed periods as starting points (and any
@@ -32,13 +26,7 @@ pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
             "heft audit needs the claimed period: --period P (repeatable)"
         )));
     }
-    if let Some(p) = args.rotation_d
-        && !(p.is_finite() && p > 0.0)
-    {
-        return Err(Failure::Input(anyhow::anyhow!(
-            "--rotation-d must be positive, got {p}"
-        )));
-    }
+    let rotation = args.fit.rotation()?;
     let star = args.fit.star()?;
     let request = args.fit.request(star.as_ref())?;
     let sampler = request.sampler;
@@ -59,7 +47,7 @@ pub fn run(args: &AuditArgs) -> Result<ExitCode, Failure> {
     };
     let settings = AuditSettings {
         seed: args.fit.seed(),
-        rotation_d: args.rotation_d.map(|p| (p, args.rotation_err_d.max(0.0))),
+        rotation_d: rotation,
         sampler,
         ..AuditSettings::default()
     };

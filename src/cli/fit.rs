@@ -3,6 +3,7 @@
 use std::process::ExitCode;
 
 use heft::fit::{FitOptions, SearchSettings, SignalCount};
+use heft::gp::{Activity, rotation_prior};
 use heft::pipeline::{self, Request};
 use heft::prep::{DataLog, OutlierMode, OutlierPolicy};
 use heft::target::{OrbitShape, Settings, Star};
@@ -40,6 +41,21 @@ pub struct FitArgs {
     /// diagnostics; exit status 3 if it does not converge).
     #[arg(long)]
     sample: bool,
+    /// Stellar-activity noise model: none (white jitter only), quasiperiodic or
+    /// oscillator (Gaussian processes; need --rotation-d).
+    #[arg(long, default_value = "none")]
+    activity: Activity,
+    /// Stellar rotation period, days: centres the activity model's rotation-period prior
+    /// (and the audit tests a signal there).
+    #[arg(long)]
+    rotation_d: Option<f64>,
+    /// Train the activity model on this indicator column first (its hyperparameters
+    /// become priors of the RV fit).
+    #[arg(long, value_name = "COLUMN")]
+    activity_indicator: Option<String>,
+    /// 1σ uncertainty of the rotation period, days (default for the prior: 10 % of it).
+    #[arg(long, requires = "rotation_d")]
+    rotation_err_d: Option<f64>,
     /// Seed of the sampler and the Monte Carlo draws.
     #[arg(long, default_value_t = 1)]
     seed: u64,
@@ -77,6 +93,28 @@ impl FitArgs {
         }
     }
 
+    /// The rotation period and its 1σ (0 when not given), days.
+    ///
+    /// # Errors
+    /// A non-positive period or a negative uncertainty.
+    pub fn rotation(&self) -> Result<Option<(f64, f64)>, Failure> {
+        let Some(p) = self.rotation_d else {
+            if self.activity != Activity::None {
+                return Err(Failure::Input(anyhow::anyhow!(
+                    "--activity needs the rotation period: --rotation-d P"
+                )));
+            }
+            return Ok(None);
+        };
+        let err = self.rotation_err_d.unwrap_or(0.0);
+        if !(p.is_finite() && p > 0.0 && err.is_finite() && err >= 0.0) {
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--rotation-d must be positive and --rotation-err-d zero or positive, got {p} and {err}"
+            )));
+        }
+        Ok(Some((p, err)))
+    }
+
     /// The periods given with --period.
     pub fn periods(&self) -> &[f64] {
         &self.periods
@@ -104,7 +142,19 @@ impl FitArgs {
             Some(n) => SignalCount::Exactly(n.max(self.periods.len())),
             None => SignalCount::UpTo(defaults.max_signals.max(self.periods.len())),
         };
+        let rotation = self.rotation()?;
         let set = self.input.load()?;
+        if self.activity_indicator.is_some() && self.activity == Activity::None {
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--activity-indicator needs an activity model: --activity quasiperiodic|oscillator"
+            )));
+        }
+        let activity_indicator = self
+            .activity_indicator
+            .as_deref()
+            .map(|name| pipeline::indicator_column(&set, name))
+            .transpose()
+            .map_err(|e| Failure::Input(e.into()))?;
         let log = DataLog::new(set.len());
         Ok(Request {
             name: self
@@ -132,6 +182,9 @@ impl FitArgs {
                         OrbitShape::Eccentric
                     },
                     trend: usize::from(self.trend),
+                    activity: self.activity,
+                    rotation_d: rotation.map(|(p, e)| rotation_prior(p, e)),
+                    activity_indicator,
                     ..FitOptions::default()
                 },
             },

@@ -50,6 +50,10 @@ pub struct PeriodogramArgs {
     /// Seed of the bootstrap.
     #[arg(long, default_value_t = 1)]
     seed: u64,
+    /// Stellar rotation period, days: peaks near it and its first two harmonics are
+    /// flagged (`near_rotation`; so are peaks near a significant indicator peak).
+    #[arg(long)]
+    rotation_d: Option<f64>,
     /// Write the table `frequency,period,power` here.
     #[arg(long, value_name = "OUT.csv")]
     table: Option<PathBuf>,
@@ -84,6 +88,13 @@ fn write_file(path: &std::path::Path, text: &str) -> Result<(), Failure> {
 
 /// Runs the command.
 pub fn run(args: &PeriodogramArgs) -> Result<ExitCode, Failure> {
+    if let Some(p) = args.rotation_d
+        && !(p.is_finite() && p > 0.0)
+    {
+        return Err(Failure::Input(anyhow::anyhow!(
+            "--rotation-d must be positive, got {p}"
+        )));
+    }
     let set = args.input.load()?;
     let grid = grid(args, &set)?;
     let settings = OverviewSettings {
@@ -97,6 +108,7 @@ pub fn run(args: &PeriodogramArgs) -> Result<ExitCode, Failure> {
         peaks: N_PEAKS,
         bootstrap: args.bootstrap,
         seed: args.seed,
+        rotation_d: args.rotation_d,
         ..OverviewSettings::default()
     };
     let ov =
@@ -157,6 +169,9 @@ fn text_report(set: &RvSet, ov: &periodogram::Overview) -> String {
             "  {:>14.6} {:>12.8} {:>8.4} {:>10.3e} {:>18}\n",
             p.period, p.frequency, p.power, p.fap, boot
         ));
+        if let Some(r) = &c.near_rotation {
+            text.push_str(&format!("      near {r}\n"));
+        }
         for a in c.aliases.iter().take(TEXT_ALIASES) {
             text.push_str(&format!(
                 "      alias {:>12.6} d  (f {:+} × {:.6} 1/d)  predicted power {:.4}, observed {:.4}\n",

@@ -259,6 +259,18 @@ impl RvSet {
         if sd > 0.0 { sd } else { 1.0 }
     }
 
+    /// Indicator column `c` as a series in place of the RVs (its points with a value,
+    /// every error set to `err`, in the indicator's unit).
+    pub fn indicator_series(&self, c: usize, err: f64) -> RvSet {
+        let keep: Vec<usize> = (0..self.len())
+            .filter(|&i| self.indicators[c].values[i].is_finite())
+            .collect();
+        let mut sub = self.select(&keep);
+        sub.rv_mps = keep.iter().map(|&i| self.indicators[c].values[i]).collect();
+        sub.err_mps = vec![err; keep.len()];
+        sub
+    }
+
     /// The points at `indices`, in that order, with all per-point columns kept together.
     pub fn select(&self, indices: &[usize]) -> RvSet {
         let pick = |v: &[f64]| indices.iter().map(|&i| v[i]).collect::<Vec<f64>>();

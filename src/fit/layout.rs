@@ -5,9 +5,12 @@
 //! Per planet θ holds `P` (unless held fixed), `K`, `e cos ω`, `e sin ω` (eccentric
 //! orbits only) and `Tc`; then one offset per instrument; one jitter per instrument (or one
 //! shared by all); the trend coefficients; and the coefficients of any activity-indicator
-//! regressors. `(e cos ω, e sin ω)` is smooth through e = 0, where ω is undefined.
+//! regressors; and, with a stellar-activity GP, the natural logarithm of each of its
+//! hyperparameters ([`crate::gp::Activity::keys`]). `(e cos ω, e sin ω)` is smooth through
+//! e = 0, where ω is undefined.
 
 use crate::data::RvSet;
+use crate::gp::{ActivityLayout, Kernel, Points, Solver};
 use crate::model::{Noise, Params};
 use crate::orbit::Orbit;
 use crate::periodogram::Sinusoid;
@@ -84,6 +87,8 @@ pub struct Layout {
     pub noise: Noise,
     /// Offset constraints `(earlier, later, mean, sd)`: instrument indices, m/s.
     pub offset_priors: Vec<(usize, usize, f64, f64)>,
+    /// The stellar-activity GP, if any.
+    pub activity: Option<ActivityLayout>,
     /// Index in θ of each planet's first parameter.
     planet_start: Vec<usize>,
     /// Index of the first offset.
@@ -111,6 +116,8 @@ pub enum Role {
     Trend(usize),
     /// Indicator coefficient `j` (see [`Layout::regressor_target`]).
     Regressor(usize),
+    /// Natural logarithm of activity hyperparameter `q` ([`crate::gp::Activity::keys`]).
+    Activity(usize),
 }
 
 impl Layout {
@@ -138,6 +145,7 @@ impl Layout {
             regressors_per_instrument: false,
             noise: Noise::Gaussian,
             offset_priors: Vec::new(),
+            activity: None,
             planet_start,
             offsets_start: at,
         }
@@ -165,6 +173,14 @@ impl Layout {
     pub fn with_regressors_per_instrument(self, per_instrument: bool) -> Layout {
         Layout {
             regressors_per_instrument: per_instrument,
+            ..self
+        }
+    }
+
+    /// The same layout with a stellar-activity GP.
+    pub fn with_activity(self, activity: ActivityLayout) -> Layout {
+        Layout {
+            activity: Some(activity),
             ..self
         }
     }
@@ -237,6 +253,11 @@ impl Layout {
         total
     }
 
+    /// Number of activity hyperparameters.
+    pub fn n_activity(&self) -> usize {
+        self.activity.as_ref().map_or(0, |a| a.start.len())
+    }
+
     /// Number of jitter parameters.
     pub fn n_jitters(&self) -> usize {
         if self.shared_jitter {
@@ -258,6 +279,7 @@ impl Layout {
             + self.n_jitters()
             + self.trend
             + self.n_regressors()
+            + self.n_activity()
     }
 
     /// True when θ is empty (never: offsets and jitters are always free).
@@ -283,6 +305,7 @@ impl Layout {
         roles.extend((0..self.n_jitters()).map(Role::Jitter));
         roles.extend((1..=self.trend).map(Role::Trend));
         roles.extend((0..self.n_regressors()).map(Role::Regressor));
+        roles.extend((0..self.n_activity()).map(Role::Activity));
         roles
     }
 
@@ -329,7 +352,49 @@ impl Layout {
 
     /// Indicator coefficients from θ.
     pub fn regressor_coefficients<'t>(&self, theta: &'t [f64]) -> &'t [f64] {
-        &theta[theta.len() - self.n_regressors()..]
+        let end = theta.len() - self.n_activity();
+        &theta[end - self.n_regressors()..end]
+    }
+
+    /// Activity hyperparameters from θ in physical units (empty without a GP).
+    pub fn activity_values(&self, theta: &[f64]) -> Vec<f64> {
+        theta[theta.len() - self.n_activity()..]
+            .iter()
+            .map(|x| x.exp())
+            .collect()
+    }
+
+    /// The activity kernel at θ (hyperparameters moved into their bounds), `None`
+    /// without a GP.
+    pub fn kernel(&self, theta: &[f64]) -> Option<Kernel> {
+        self.activity
+            .as_ref()
+            .and_then(|a| a.model.kernel(&a.clamp(&self.activity_values(theta))))
+    }
+
+    /// Log-likelihood of `set` at θ: Gaussian with white errors and jitters, or with
+    /// the activity GP added to their covariance ([`Points::log_likelihood`]; the
+    /// semiseparable solver when the kernel allows). −∞ for invalid θ or a covariance
+    /// that is not positive definite.
+    pub fn log_likelihood(&self, theta: &[f64], max_ecc: f64, set: &RvSet) -> f64 {
+        let Some(params) = self.params(theta, max_ecc) else {
+            return f64::NEG_INFINITY;
+        };
+        let l = match self.kernel(theta) {
+            None => params.log_likelihood(set),
+            Some(kernel) => {
+                let white = white_variances(&params, set);
+                let scale = vec![1.0; set.len()];
+                Points {
+                    time_d: &set.time_d,
+                    white: &white,
+                    scale: &scale,
+                }
+                .log_likelihood(&kernel, Solver::Auto, &params.residuals(set))
+                .unwrap_or(f64::NEG_INFINITY)
+            }
+        };
+        if l.is_nan() { f64::NEG_INFINITY } else { l }
     }
 
     /// Model parameters from θ, with each eccentricity capped at `max_ecc` (the caller
@@ -397,6 +462,9 @@ impl Layout {
         }
         theta.extend((0..self.trend).map(|k| trend.get(k).copied().unwrap_or(0.0)));
         theta.extend(std::iter::repeat_n(0.0, self.n_regressors()));
+        if let Some(a) = &self.activity {
+            theta.extend(a.start.iter().map(|x| x.ln()));
+        }
         theta
     }
 
@@ -417,8 +485,14 @@ impl Layout {
                 Role::Tc(i) => 0.01 * self.planets[i].period_d,
                 Role::Trend(k) => sigma / years.powi(k as i32),
                 Role::Regressor(j) => sigma / set.indicator_spread(self.regressor_target(j).0),
+                Role::Activity(_) => 0.1,
             })
             .collect()
+    }
+
+    /// Keys of the activity hyperparameters (empty without a GP).
+    pub fn activity_keys(&self) -> &'static [&'static str] {
+        self.activity.as_ref().map_or(&[], |a| a.model.keys())
     }
 
     /// Short name of each θ entry, e.g. `b.period_d`, `offset_mps.Quill`,
@@ -443,7 +517,18 @@ impl Layout {
                         format!("regressor.{}.{}", set.indicators[c].name, instruments[k])
                     }
                 },
+                Role::Activity(q) => format!("ln_activity.{}", self.activity_keys()[q]),
             })
             .collect()
     }
+}
+
+/// White variance of each point of `set`, error² + jitter², m²/s².
+pub fn white_variances(params: &Params, set: &RvSet) -> Vec<f64> {
+    (0..set.len())
+        .map(|i| {
+            let (e, s) = (set.err_mps[i], params.jitters_mps[set.instrument[i]]);
+            e * e + s * s
+        })
+        .collect()
 }

@@ -26,6 +26,7 @@ use rand_distr::StandardNormal;
 use serde::Serialize;
 
 use crate::data::{RvSet, median};
+use crate::gp::{Activity, ActivityLayout, Points, Solver};
 use crate::model::{Noise, Params};
 use crate::orbit::periastron_from_conjunction;
 use crate::summary::{Summary, wrap_pi};
@@ -48,6 +49,9 @@ pub enum FitError {
     /// A starting value is unusable.
     #[error("invalid starting value: {0}")]
     Start(String),
+    /// Model options that cannot go together.
+    #[error("{0}")]
+    Options(String),
     /// The optimiser found no finite likelihood.
     #[error("the optimiser found no finite likelihood; check the data and starting periods")]
     NoFiniteLikelihood,
@@ -81,6 +85,17 @@ pub struct FitOptions {
     pub noise: Noise,
     /// Gaussian constraints on differences of instrument offsets (default none).
     pub offset_priors: Vec<OffsetPrior>,
+    /// Stellar-activity noise model (default none).
+    pub activity: Activity,
+    /// Rotation-period prior `(mean, sd)` in days of the activity model (required by
+    /// every model but `none`).
+    pub rotation_d: Option<(f64, f64)>,
+    /// Indicator column (index into the data's indicators) on which the activity model's
+    /// hyperparameters are trained before the RV fit ([`train_activity`]; default none).
+    pub activity_indicator: Option<usize>,
+    /// Gaussian priors `(mean, sd)` on the activity hyperparameters ([`Activity::keys`]
+    /// order, physical units) from that training; `None` entries are free.
+    pub activity_priors: [Option<(f64, f64)>; 4],
 }
 
 impl Default for FitOptions {
@@ -94,6 +109,10 @@ impl Default for FitOptions {
             regressors_per_instrument: false,
             noise: Noise::Gaussian,
             offset_priors: Vec::new(),
+            activity: Activity::None,
+            rotation_d: None,
+            activity_indicator: None,
+            activity_priors: [None; 4],
         }
     }
 }
@@ -167,6 +186,9 @@ pub struct Fit {
     pub trend: Vec<Summary>,
     /// Indicator coefficients, m/s per indicator unit (same order as the data's columns).
     pub regressors: Vec<Summary>,
+    /// Activity hyperparameters by key ([`Activity::keys`]), physical units; errors
+    /// from the curvature in their logarithms (empty without a GP).
+    pub activity: Vec<(String, Summary)>,
     /// Model options used.
     pub options: FitOptions,
     /// Findings worth showing the user.
@@ -220,6 +242,28 @@ impl Fit {
             r.rv_mps[j] -= planets + p.trend_rv(t) + p.regressors_rv(set, j);
         }
         r
+    }
+
+    /// The activity GP's conditional mean and variance (m/s, m²/s²) at times `at_d`
+    /// (days from the epoch), given the residuals of this fit's mean model on `set`;
+    /// `None` without a GP or when its covariance cannot be factorised.
+    pub fn activity_prediction(&self, set: &RvSet, at_d: &[f64]) -> Option<(Vec<f64>, Vec<f64>)> {
+        let kernel = self.layout.kernel(&self.theta)?;
+        let white = layout::white_variances(&self.params, set);
+        let scale = vec![1.0; set.len()];
+        Points {
+            time_d: &set.time_d,
+            white: &white,
+            scale: &scale,
+        }
+        .predict(
+            &kernel,
+            Solver::Auto,
+            &self.params.residuals(set),
+            at_d,
+            &vec![1.0; at_d.len()],
+        )
+        .ok()
     }
 
     /// `n` draws of θ from the Gaussian approximation `N(θ̂, C)` of the likelihood.
@@ -296,6 +340,33 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
     if options.shared_jitter {
         layout = layout.with_shared_jitter();
     }
+    if options.activity != Activity::None {
+        let rotation = options.rotation_d.ok_or_else(|| {
+            FitError::Start(
+                "the activity model needs a rotation period: give --rotation-d or star.rotation_d"
+                    .into(),
+            )
+        })?;
+        if !(rotation.0 > 0.0
+            && rotation.1 > 0.0
+            && rotation.0.is_finite()
+            && rotation.1.is_finite())
+        {
+            return Err(FitError::Start(format!(
+                "rotation period {} ± {} d",
+                rotation.0, rotation.1
+            )));
+        }
+        layout = layout.with_activity(
+            ActivityLayout::new(
+                options.activity,
+                rotation,
+                centred_sd(set),
+                set.baseline_d(),
+            )
+            .with_trained(&options.activity_priors),
+        );
+    }
     if layout.len() >= set.len() {
         return Err(FitError::TooFewPoints {
             params: layout.len(),
@@ -368,6 +439,92 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         ));
     }
     Ok(fit)
+}
+
+/// Trains the activity model of `options` on indicator column
+/// `options.activity_indicator` of `set`: the same GP (with the same rotation prior) plus
+/// one offset and one jitter per instrument is fitted to the indicator series alone, and
+/// each hyperparameter but the amplitudes (which are in the indicator's unit) becomes a
+/// Gaussian prior `(best fit, mean of its curvature errors)` for the RV fit (hyperparameters
+/// trained on another series of the same star, as Haywood et al. 2014 did with its
+/// light curve; from memory). Hyperparameters
+/// whose curvature error is not defined, spans more than a factor 2
+/// ([`TRAINED_SD_LN`]) or comes from a bound (the value at it) stay free. All `None` without an indicator.
+///
+/// # Errors
+/// [`FitError`] when the indicator series cannot be fitted (too few points, no rotation
+/// period, an unknown column).
+pub fn train_activity(
+    set: &RvSet,
+    options: &FitOptions,
+) -> Result<[Option<(f64, f64)>; 4], FitError> {
+    let mut priors = [None; 4];
+    let Some(c) = options.activity_indicator else {
+        return Ok(priors);
+    };
+    if c >= set.indicators.len() {
+        return Err(FitError::Start(format!(
+            "activity indicator column {c}: the data have {} indicator columns",
+            set.indicators.len()
+        )));
+    }
+    // The indicators carry no uncertainties: a token error of 5 % of the spread (a
+    // floor of 0.25 % of the variance; the jitters, which start there, take the white
+    // scatter; much smaller starts leave the covariance too ill-conditioned to move).
+    let series = set.indicator_series(c, 0.05 * set.indicator_spread(c));
+    let trained = fit(
+        &series,
+        &[],
+        &FitOptions {
+            trend: 0,
+            regressors: 0,
+            shared_jitter: false,
+            regressors_per_instrument: false,
+            noise: Noise::Gaussian,
+            offset_priors: Vec::new(),
+            activity_indicator: None,
+            activity_priors: [None; 4],
+            ..options.clone()
+        },
+    )?;
+    let layout = trained
+        .layout
+        .activity
+        .as_ref()
+        .expect("the trained fit has the GP");
+    for (q, (key, s)) in trained.activity.iter().enumerate() {
+        let sd = 0.5 * (s.minus + s.plus);
+        // The curvature error of the logarithm, ln(1 + plus/value).
+        let sd_ln = (s.plus / s.value).ln_1p();
+        let informative = sd > 0.0 && sd_ln < TRAINED_SD_LN && !layout.at_bound(q, s.value);
+        if !key.starts_with("amplitude") && informative {
+            priors[q] = Some((s.value, sd));
+        }
+    }
+    Ok(priors)
+}
+
+/// Largest 1σ error of a trained hyperparameter's logarithm (ln 2: the indicator pins it
+/// within a factor 2) for it to become a prior of the RV fit; a looser one would be a
+/// prior in name only (a choice of heft's).
+pub const TRAINED_SD_LN: f64 = std::f64::consts::LN_2;
+
+/// Standard deviation of the RVs about each instrument's mean, m/s.
+fn centred_sd(set: &RvSet) -> f64 {
+    let n = set.n_instruments();
+    let mut sum = vec![0.0; n];
+    let mut count = vec![0.0; n];
+    for i in 0..set.len() {
+        sum[set.instrument[i]] += set.rv_mps[i];
+        count[set.instrument[i]] += 1.0;
+    }
+    let ss: f64 = (0..set.len())
+        .map(|i| {
+            let k = set.instrument[i];
+            (set.rv_mps[i] - sum[k] / count[k]).powi(2)
+        })
+        .sum();
+    (ss / set.len().max(1) as f64).sqrt()
 }
 
 /// θ from the specs, offsets at each instrument's weighted mean of the data minus the
@@ -446,7 +603,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let params = layout
         .params(&theta, options.max_ecc)
         .expect("the optimum has finite parameters");
-    let log_likelihood = params.log_likelihood(set);
+    let log_likelihood = layout.log_likelihood(&theta, options.max_ecc, set);
     let sigma_of = |q: &dyn Fn(&[f64]) -> f64| -> f64 {
         let g = objective::gradient(q, &theta, &h);
         let g = DVector::from_vec(g);
@@ -550,6 +707,34 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
                 .expect("regressors are free"))
         })
         .collect();
+    let activity = layout
+        .activity_keys()
+        .iter()
+        .enumerate()
+        .map(|(q, key)| {
+            let j = layout
+                .index(Role::Activity(q))
+                .expect("activity hyperparameters are free");
+            let (ln, sd) = (theta[j], covariance[(j, j)].max(0.0).sqrt());
+            let value = ln.exp();
+            let summary = Summary {
+                minus: value - (ln - sd).exp(),
+                plus: (ln + sd).exp() - value,
+                ..Summary::exact(value)
+            };
+            (key.to_string(), summary)
+        })
+        .collect::<Vec<_>>();
+    if let Some(a) = &layout.activity {
+        for (q, (key, s)) in activity.iter().enumerate() {
+            if a.at_bound(q, s.value) {
+                warnings.push(format!(
+                    "activity {key} = {} is at its bound {:?}: the data do not constrain it there and its error is the bound's",
+                    s.value, a.bounds[q]
+                ));
+            }
+        }
+    }
     for (i, p) in params.planets.iter().enumerate() {
         if p.ecc() >= options.max_ecc - 1e-6 {
             warnings.push(format!(
@@ -572,6 +757,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
         instruments,
         trend,
         regressors,
+        activity,
         options: options.clone(),
         warnings,
         starts: 1,

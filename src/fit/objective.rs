@@ -1,9 +1,11 @@
 //! The function the fit minimises: −ln L plus the Gaussian constraints of the planet
-//! specs and a smooth penalty on eccentricities above the cap.
+//! specs, a smooth penalty on eccentricities above the cap and, with an activity GP, its
+//! rotation-period prior and hyperparameter bounds.
 
 use crate::data::RvSet;
 
-use super::layout::{Layout, Role};
+use super::layout::{Layout, Role, white_variances};
+use crate::gp::{Factor, Points, Solver, Term};
 use crate::model::DAYS_PER_YEAR;
 
 /// Weight of the quadratic penalty `W (e − e_max)²` on eccentricities above the cap.
@@ -23,15 +25,16 @@ pub struct Objective<'a> {
 impl Objective<'_> {
     /// Negative log-likelihood only (no constraints, no penalties); +∞ for invalid θ.
     pub fn neg_log_likelihood(&self, theta: &[f64]) -> f64 {
-        match self.layout.params(theta, self.max_ecc) {
-            Some(p) => -p.log_likelihood(self.set),
-            None => f64::INFINITY,
-        }
+        -self.layout.log_likelihood(theta, self.max_ecc, self.set)
     }
 
     /// The minimised function; +∞ for invalid θ.
     pub fn value(&self, theta: &[f64]) -> f64 {
-        let mut total = self.neg_log_likelihood(theta) + self.layout.offset_penalty(theta, None);
+        let mut total = match &self.layout.activity {
+            Some(a) => a.penalty(&self.layout.activity_values(theta)),
+            None => 0.0,
+        };
+        total += self.neg_log_likelihood(theta) + self.layout.offset_penalty(theta, None);
         for (i, spec) in self.layout.planets.iter().enumerate() {
             let [p, _, ec, es, tc] = self.layout.planet_elements(theta, i);
             let excess = ec.hypot(es) - self.max_ecc;
@@ -52,7 +55,10 @@ impl Objective<'_> {
     /// constraints and penalty; for planet elements, `∂f/∂m_i` times forward differences of
     /// that planet's RV curve alone (steps `steps`), so one gradient costs about one
     /// likelihood evaluation per planet parameter rather than two full evaluations per
-    /// parameter. Zeros for invalid θ.
+    /// parameter. With an activity GP, `∂f/∂m_i = −(K⁻¹r)_i` (Rasmussen & Williams 2006,
+    /// eq. 5.9 with ∂K/∂m = 0); the jitters and hyperparameters are analytic for the
+    /// quasi-periodic kernel ([`dense_gradient`]) and take central differences of the
+    /// whole objective otherwise. Zeros for invalid θ.
     pub fn gradient(&self, theta: &[f64], steps: &[f64]) -> Vec<f64> {
         let (layout, set) = (self.layout, self.set);
         let mut grad = vec![0.0; theta.len()];
@@ -69,6 +75,7 @@ impl Objective<'_> {
         // noise −r_i/V_i and Σ s (1/V − r²/V²)).
         let mut dfdm = vec![0.0; n];
         let mut dfds = vec![0.0; set.n_instruments()];
+        let mut residuals = vec![0.0; n];
         for i in 0..n {
             let k = set.instrument[i];
             let t = set.time_d[i];
@@ -82,13 +89,56 @@ impl Objective<'_> {
             let (df_dr, df_dv2) = layout.noise.gradient_terms(r, v);
             dfdm[i] = -df_dr;
             dfds[k] += df_dv2;
+            residuals[i] = r;
         }
+        let kernel = layout.kernel(theta);
+        let mut hyper: Option<Vec<f64>> = None;
+        if let Some(kernel) = &kernel {
+            let white = white_variances(&params, set);
+            let scale = vec![1.0; n];
+            let points = Points {
+                time_d: &set.time_d,
+                white: &white,
+                scale: &scale,
+            };
+            let Ok(factor) = points.factor(kernel, Solver::Auto) else {
+                return grad;
+            };
+            let alpha = factor.solve(&residuals);
+            for (d, a) in dfdm.iter_mut().zip(&alpha) {
+                *d = -a;
+            }
+            if let (Factor::Dense(chol), [term @ Term::QuasiPeriodic { .. }]) =
+                (&factor, kernel.terms.as_slice())
+            {
+                let (w_diag, g) = dense_gradient(chol, &alpha, term, &set.time_d);
+                dfds.iter_mut().for_each(|d| *d = 0.0);
+                for (i, w) in w_diag.iter().enumerate() {
+                    dfds[set.instrument[i]] += w;
+                }
+                hyper = Some(self.hyper_gradient(theta, g));
+            }
+        }
+        // Central differences with steps 100 × the forward ones (closer to the
+        // cube root of the rounding error, in scaled units).
+        let by_difference = |j: usize| {
+            let h = 100.0 * steps[j];
+            let mut x = theta.to_vec();
+            x[j] = theta[j] + h;
+            let up = self.value(&x);
+            x[j] = theta[j] - h;
+            (up - self.value(&x)) / (2.0 * h)
+        };
         for (j, role) in layout.roles().into_iter().enumerate() {
             grad[j] = match role {
                 Role::Offset(k) => (0..n)
                     .filter(|&i| set.instrument[i] == k)
                     .map(|i| dfdm[i])
                     .sum(),
+                Role::Activity(q) if hyper.is_some() => hyper.as_ref().map_or(0.0, |h| h[q]),
+                Role::Jitter(_) | Role::Activity(_) if kernel.is_some() && hyper.is_none() => {
+                    by_difference(j)
+                }
                 Role::Jitter(g) => {
                     theta[j]
                         * (0..set.n_instruments())
@@ -149,6 +199,68 @@ impl Objective<'_> {
     }
 }
 
+impl Objective<'_> {
+    /// Gradient in the activity hyperparameters' logarithms: the likelihood part `g`
+    /// ([`dense_gradient`], zero for a value outside its bounds, where the model uses the
+    /// bound) plus central differences of the bounds' walls and the priors.
+    fn hyper_gradient(&self, theta: &[f64], g: [f64; 4]) -> Vec<f64> {
+        let a = self
+            .layout
+            .activity
+            .as_ref()
+            .expect("hyperparameters come with a GP");
+        let ln: Vec<f64> = self
+            .layout
+            .activity_values(theta)
+            .iter()
+            .map(|v| v.ln())
+            .collect();
+        let penalty = |x: &[f64]| a.penalty(&x.iter().map(|v| v.exp()).collect::<Vec<f64>>());
+        let walls = gradient(&penalty, &ln, &vec![1e-6; ln.len()]);
+        ln.iter()
+            .zip(&a.bounds)
+            .enumerate()
+            .map(|(q, (x, (lo, hi)))| {
+                let inside = (lo.ln()..=hi.ln()).contains(x);
+                walls[q] + if inside { g[q] } else { 0.0 }
+            })
+            .collect()
+    }
+}
+
+/// With `W = K⁻¹ − ααᵀ` (α = K⁻¹r, K factorised by `chol`, one quasi-periodic `term` at
+/// times `t`): the diagonal of `W`, `∂(−ln L)/∂K_ii = ½ W_ii`, and
+/// `∂(−ln L)/∂ln θ_q = ½ Σ_ij W_ij ∂K_ij/∂ln θ_q` for `θ = (h, λ, P, w)` (Rasmussen &
+/// Williams 2006, eq. 5.9).
+fn dense_gradient(
+    chol: &nalgebra::Cholesky<f64, nalgebra::Dyn>,
+    alpha: &[f64],
+    term: &Term,
+    t: &[f64],
+) -> (Vec<f64>, [f64; 4]) {
+    let kinv = chol.inverse();
+    let at_zero = term.log_gradient(0.0).expect("a quasi-periodic term");
+    let mut g = [0.0; 4];
+    let mut diag = Vec::with_capacity(t.len());
+    for i in 0..t.len() {
+        let wii = kinv[(i, i)] - alpha[i] * alpha[i];
+        diag.push(wii);
+        for q in 0..4 {
+            g[q] += 0.5 * wii * at_zero[q];
+        }
+        for j in 0..i {
+            let w = kinv[(i, j)] - alpha[i] * alpha[j];
+            let d = term
+                .log_gradient(t[i] - t[j])
+                .expect("a quasi-periodic term");
+            for q in 0..4 {
+                g[q] += w * d[q];
+            }
+        }
+    }
+    (diag, g)
+}
+
 /// Central-difference gradient of `f` at `x` with steps `h`.
 pub fn gradient(f: &dyn Fn(&[f64]) -> f64, x: &[f64], h: &[f64]) -> Vec<f64> {
     let mut xp = x.to_vec();
@@ -204,10 +316,11 @@ mod tests {
 
     /// The mixed analytic/forward-difference gradient against central differences of the
     /// objective itself, on an eccentric two-planet, two-instrument model with trend and
-    /// constraints.
+    /// constraints, without and with an activity GP.
     #[test]
     fn gradient_matches_central_differences() {
         use crate::fit::layout::PlanetSpec;
+        use crate::gp::{Activity, ActivityLayout};
         use crate::target::OrbitShape;
         let n = 60;
         let t: Vec<f64> = (0..n)
@@ -253,19 +366,26 @@ mod tests {
             mean_mps: 0.4,
             sd_mps: 0.3,
         };
-        // Gaussian, then Student-t residuals with an offset constraint and an indicator
-        // term per instrument.
+        // Gaussian; Student-t residuals with an offset constraint and an indicator term
+        // per instrument; the Gaussian model with a quasi-periodic activity GP (dense
+        // solver: `−K⁻¹r` for the mean model, the analytic jitter and hyperparameter
+        // gradient, and the rotation prior, started off its mean).
         let robust = base
             .clone()
             .with_noise(crate::model::Noise::StudentT { dof: 3.5 })
             .with_offset_priors(&[constraint], &set.instruments)
             .with_regressors(1)
             .with_regressors_per_instrument(true);
-        for layout in [base, robust] {
+        let activity = ActivityLayout::new(Activity::QuasiPeriodic, (12.0, 1.0), 4.0, 200.0);
+        let with_gp = base.clone().with_activity(activity);
+        for layout in [base, robust, with_gp] {
             let mut theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
             let m = theta.len();
             if layout.n_regressors() == 2 {
                 theta[m - 2..].copy_from_slice(&[0.8, -1.3]);
+            }
+            if layout.activity.is_some() {
+                theta[m - 2] = 12.6_f64.ln();
             }
             let obj = Objective {
                 set: &set,

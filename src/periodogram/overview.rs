@@ -13,6 +13,7 @@ use super::{
     compute_with, spectral_window, window_peaks,
 };
 use crate::data::RvSet;
+use crate::gp::near_rotation;
 
 /// What [`overview`] computes.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -29,6 +30,9 @@ pub struct OverviewSettings {
     pub bootstrap: usize,
     /// Seed of the bootstrap.
     pub seed: u64,
+    /// Stellar rotation period, days, when known: candidates near it or its harmonics
+    /// are flagged (so are those near a significant indicator peak).
+    pub rotation_d: Option<f64>,
 }
 
 impl Default for OverviewSettings {
@@ -40,6 +44,7 @@ impl Default for OverviewSettings {
             window_peaks: 3,
             bootstrap: 0,
             seed: 1,
+            rotation_d: None,
         }
     }
 }
@@ -56,6 +61,10 @@ pub struct Candidate {
     pub fap_bootstrap_err: Option<f64>,
     /// Aliases through the window peaks, highest predicted power first.
     pub aliases: Vec<Alias>,
+    /// Which stellar-activity period (the given rotation period or a significant
+    /// indicator peak) or harmonic of it the peak is near, in words.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub near_rotation: Option<String>,
 }
 
 /// A further periodogram on the overview's grid.
@@ -86,8 +95,13 @@ pub struct Overview {
     pub residuals: Vec<Panel>,
 }
 
-/// Computes the periodogram, window, candidates (peaks at least `1/span` apart) and
-/// indicator periodograms of `set` on `grid`.
+/// Baluev FAP below which an indicator's strongest peak is taken as a stellar-activity
+/// period for the candidates' rotation flags (0.1 %, the search's default threshold).
+const INDICATOR_FAP: f64 = 1e-3;
+
+/// Computes the periodogram, window, candidates (peaks at least `1/span` apart, each
+/// flagged when near the rotation period, a significant indicator peak or their first two
+/// harmonics) and indicator periodograms of `set` on `grid`.
 ///
 /// Indicator columns are unweighted (they carry no uncertainties) with one offset per
 /// instrument; points where an indicator is missing are left out, and an indicator with
@@ -115,6 +129,32 @@ pub fn overview(
             settings.seed,
         )?),
     };
+    let mut indicators = Vec::new();
+    let mut activity_periods: Vec<(f64, String)> = settings
+        .rotation_d
+        .map(|p| (p, "given".to_string()))
+        .into_iter()
+        .collect();
+    for (c, ind) in set.indicators.iter().enumerate() {
+        match compute_with(&set.indicator_series(c, 1.0), &[], grid, settings.method) {
+            Ok(pg) => {
+                if let Some(top) = pg.peaks(1, 0.0).first()
+                    && top.fap < INDICATOR_FAP
+                {
+                    activity_periods.push((
+                        top.period,
+                        format!("strongest peak of indicator {}", ind.name),
+                    ));
+                }
+                indicators.push(Panel {
+                    label: format!("indicator {}", ind.name),
+                    power: pg.power,
+                });
+            }
+            Err(PeriodogramError::TooFewPoints { .. } | PeriodogramError::ZeroBaseline) => {}
+            Err(e) => return Err(e),
+        }
+    }
     let mut candidates = Vec::new();
     for peak in periodogram.peaks(settings.peaks, 1.0 / set.baseline_d()) {
         let (fap, err) = match &boot {
@@ -129,24 +169,10 @@ pub fn overview(
             fap_bootstrap: fap,
             fap_bootstrap_err: err,
             aliases: aliases(set, jitters_mps, peak.frequency, &wpeaks)?,
-        });
-    }
-    let mut indicators = Vec::new();
-    for ind in &set.indicators {
-        let keep: Vec<usize> = (0..set.len())
-            .filter(|&i| ind.values[i].is_finite())
-            .collect();
-        let mut sub = set.select(&keep);
-        sub.rv_mps = keep.iter().map(|&i| ind.values[i]).collect();
-        sub.err_mps = vec![1.0; keep.len()];
-        match compute_with(&sub, &[], grid, settings.method) {
-            Ok(pg) => indicators.push(Panel {
-                label: format!("indicator {}", ind.name),
-                power: pg.power,
+            near_rotation: activity_periods.iter().find_map(|(p, source)| {
+                near_rotation(peak.period, *p).map(|w| format!("{w}: {source}"))
             }),
-            Err(PeriodogramError::TooFewPoints { .. } | PeriodogramError::ZeroBaseline) => {}
-            Err(e) => return Err(e),
-        }
+        });
     }
     Ok(Overview {
         periodogram,

@@ -81,6 +81,39 @@ fn model_block(a: &Analysis) -> Value {
     })
 }
 
+/// The `activity` block: the noise model, its rotation prior, the indicator it was
+/// trained on with the trained priors, and its hyperparameters (from the draws with a
+/// posterior, else the fit); `None` without a GP.
+fn activity_block(analysis: &Analysis, post: Option<&Posterior>) -> Option<Value> {
+    let fit = &analysis.search.fit;
+    let a = fit.layout.activity.as_ref()?;
+    let estimates = post.map_or(&fit.activity, |p| &p.activity);
+    let mut parameters = serde_json::Map::new();
+    for (key, s) in estimates {
+        parameters.insert(key.clone(), json!(s));
+    }
+    let mut block = json!({
+        "model": a.model,
+        "rotation_prior_d": {"mean": a.rotation.0, "sd": a.rotation.1},
+        "parameters": parameters,
+    });
+    if let (Some(c), Value::Object(map)) = (fit.options.activity_indicator, &mut block) {
+        let trained: serde_json::Map<String, Value> = a
+            .model
+            .keys()
+            .iter()
+            .zip(&a.trained)
+            .filter_map(|(k, p)| p.map(|(m, sd)| (k.to_string(), json!({"mean": m, "sd": sd}))))
+            .collect();
+        map.insert(
+            "trained_on".into(),
+            json!(analysis.set.indicators.get(c).map(|i| i.name.clone())),
+        );
+        map.insert("trained_priors".into(), Value::Object(trained));
+    }
+    Some(block)
+}
+
 /// The whole results document. With posterior draws, planets, instruments and trend come
 /// from the draws, and `posterior` and `diagnostics` are added.
 pub fn results_json(a: &Analysis) -> Value {
@@ -187,6 +220,9 @@ pub fn results_json(a: &Analysis) -> Value {
     }
     if let (Some(budget), Value::Object(map)) = (&a.budget, &mut doc) {
         map.insert("time_budget".into(), json!(budget));
+    }
+    if let (Some(block), Value::Object(map)) = (activity_block(a, post), &mut doc) {
+        map.insert("activity".into(), block);
     }
     if let (Some(from), Value::Object(map)) = (&a.warm_from, &mut doc) {
         map.insert(

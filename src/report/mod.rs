@@ -29,7 +29,10 @@ pub use mass_radius::{PlanetCloud, mass_radius_svg};
 pub use pgram::{overview_svg, periodogram_meta, periodogram_svg};
 pub use phase::{ModelPlanet, phase_svg, residuals_time_svg};
 pub use render::{RenderError, figures, render, report_files};
-pub use saved::{POINTS_FILE, Point, Points, SavedError, SavedRun, points_csv, read_run};
+pub use saved::{
+    ACTIVITY_FILE, POINTS_FILE, Point, Points, SavedError, SavedRun, activity_csv, points_csv,
+    read_run,
+};
 pub use table::{ResultsTable, Rounded, decimals_for, round_to_uncertainty};
 pub use text::{audit_text, format_summary, summary_text};
 
@@ -44,7 +47,8 @@ use crate::pipeline::Analysis;
 /// folder; a run under `runs/` also becomes `LATEST`. With a periodogram report also
 /// `periodogram.json` (peaks, FAPs, aliases, window peaks, false-alarm levels) and
 /// `periodograms.csv` (RV, window, residual and indicator periodograms on one grid); with
-/// draws also `draws.parquet` (and `draws.csv` when `draws_csv`).
+/// draws also `draws.parquet` (and `draws.csv` when `draws_csv`); with an activity GP
+/// also `activity_model.csv` (the GP's mean and standard deviation against time).
 ///
 /// # Errors
 /// I/O errors, naming the file; the incomplete run folder is then removed, so no
@@ -62,6 +66,9 @@ pub fn write_run(
         write_in(&dir, "manifest.json", &manifest)?;
         write_draws(analysis, &dir, draws_csv)?;
         write_in(&dir, POINTS_FILE, points_csv(analysis).as_bytes())?;
+        if let Some(curve) = activity_csv(analysis) {
+            write_in(&dir, ACTIVITY_FILE, curve.as_bytes())?;
+        }
         let json =
             serde_json::to_vec_pretty(&results_json(analysis)).map_err(std::io::Error::other)?;
         write_in(&dir, "summary.txt", summary_text(analysis).as_bytes())?;

@@ -1,16 +1,16 @@
 //! Figures of the data against the model: each planet's phase-folded RV with its
-//! Keplerian curve, binned points and residuals below; and the residuals against time,
-//! one panel per instrument.
+//! Keplerian curve, binned points and residuals below; the residuals against time, one
+//! panel per instrument; and, with an activity GP, the activity model against time.
 
 use std::collections::BTreeMap;
 
 use serde_json::Value;
 
 use super::figure::{
-    COLUMN_PT, GUIDE, INK, LABEL_PT, MODEL, Marker, Panel, Scale, Svg, TICK_PT, padded_range,
-    series,
+    COLUMN_PT, GUIDE, INK, LABEL_PT, MODEL, MUTED, Marker, Panel, Scale, Svg, TICK_PT,
+    padded_range, series,
 };
-use super::saved::Points;
+use super::saved::{ActivityCurve, Points};
 use crate::orbit::Orbit;
 
 /// Plot-area margins of a one-column figure, pt.
@@ -240,20 +240,102 @@ pub fn phase_svg(
     svg.finish()
 }
 
+/// A round BJD (a multiple of 10 000 days) below every time of `points`, and the padded
+/// range of the times counted from it.
+fn time_axis(points: &Points) -> (f64, (f64, f64)) {
+    let t0 = points
+        .points
+        .iter()
+        .map(|p| p.time_bjd)
+        .fold(f64::INFINITY, f64::min);
+    let offset = (t0 / 1e4).floor() * 1e4;
+    let range = padded_range(points.points.iter().map(|p| p.time_bjd - offset), 0.03);
+    (offset, range)
+}
+
+/// The activity model against time: the data minus planets, offsets and trend (one
+/// marker per epoch, error bars from uncertainty and jitter in quadrature), the activity
+/// GP's conditional mean (line) and its ±1σ band (dashed lines).
+pub fn activity_svg(points: &Points, curve: &ActivityCurve, jit: &BTreeMap<String, f64>) -> String {
+    let names = points.instruments();
+    let err = error_bars(points, jit);
+    let (offset, (tlo, thi)) = time_axis(points);
+    let y: Vec<f64> = points
+        .points
+        .iter()
+        .map(|p| p.residual_mps + p.activity_mps)
+        .collect();
+    let shown: Vec<&[f64; 3]> = curve
+        .iter()
+        .filter(|c| (tlo..=thi).contains(&(c[0] - offset)))
+        .collect();
+    let (lo, hi) = padded_range(
+        y.iter()
+            .zip(&err)
+            .flat_map(|(v, e)| [v - e, v + e])
+            .chain(shown.iter().flat_map(|c| [c[1] - c[2], c[1] + c[2]])),
+        0.05,
+    );
+    let panel = Panel {
+        left: LEFT,
+        top: 16.0,
+        width: COLUMN_PT - LEFT - RIGHT,
+        height: 128.0,
+        xs: Scale::Linear(tlo, thi),
+        ys: Scale::Linear(lo, hi),
+    };
+    let mut svg = Svg::new(
+        panel.top + panel.height + 26.0,
+        "activity model against time",
+    );
+    instrument_legend(
+        &mut svg,
+        &names,
+        9.0,
+        &[(None, MODEL, "activity model"), (None, MUTED, "±1σ")],
+    );
+    svg.hline(&panel, 0.0, GUIDE, "2 2", "zero");
+    let line = |k: usize| -> Vec<(f64, f64)> {
+        shown
+            .iter()
+            .map(|c| {
+                (
+                    panel.x(c[0] - offset),
+                    panel.y(c[1] + (k as f64 - 1.0) * c[2]),
+                )
+            })
+            .collect()
+    };
+    svg.polyline(&line(0), MUTED, 0.6, "activity-band");
+    svg.polyline(&line(2), MUTED, 0.6, "activity-band");
+    svg.polyline(&line(1), MODEL, 1.0, "activity-model");
+    for (k, p) in points.points.iter().enumerate() {
+        let s = names.iter().position(|n| *n == p.instrument).unwrap_or(0);
+        let (colour, m) = series(s);
+        let bar = err[k] * panel.height / (hi - lo);
+        svg.marker(
+            m,
+            panel.x(p.time_bjd - offset),
+            panel.y(y[k]),
+            3.2,
+            bar,
+            colour,
+            "epoch",
+        );
+    }
+    panel.axes(&mut svg, true, true);
+    panel.y_label(&mut svg, "RV − planets [m/s]", 30.0);
+    panel.x_label(&mut svg, &format!("time [BJD_TDB − {offset:.0}]"));
+    svg.finish()
+}
+
 /// Residuals against time, one stacked panel per instrument (same time axis), one
 /// marker per epoch with error bars (uncertainty and jitter in quadrature); each panel
 /// names its instrument and residual rms.
 pub fn residuals_time_svg(points: &Points, jit: &BTreeMap<String, f64>) -> String {
     let names = points.instruments();
     let err = error_bars(points, jit);
-    let t0 = points
-        .points
-        .iter()
-        .map(|p| p.time_bjd)
-        .fold(f64::INFINITY, f64::min);
-    // Times shown from a round BJD (a multiple of 10 000 days).
-    let offset = (t0 / 1e4).floor() * 1e4;
-    let (tlo, thi) = padded_range(points.points.iter().map(|p| p.time_bjd - offset), 0.03);
+    let (offset, (tlo, thi)) = time_axis(points);
     let panel_h = 46.0;
     let gap = 12.0;
     let height = names.len() as f64 * (panel_h + gap) + 26.0;

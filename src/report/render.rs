@@ -9,7 +9,7 @@ use super::files::write_atomic;
 use super::html::{PageFigure, report_html};
 use super::mass_radius::{PlanetCloud, mass_radius_svg};
 use super::pgram::periodogram_svg;
-use super::phase::{ModelPlanet, jitters, phase_svg, residuals_time_svg};
+use super::phase::{ModelPlanet, activity_svg, jitters, phase_svg, residuals_time_svg};
 use super::saved::{SavedError, SavedRun, read_run};
 use super::table::ResultsTable;
 
@@ -68,6 +68,11 @@ pub fn figures(run: &SavedRun) -> Vec<PageFigure> {
         .flatten()
         .filter_map(ModelPlanet::from_json)
         .collect();
+    let activity_note = if run.activity.is_some() {
+        " (the activity model removed)"
+    } else {
+        ""
+    };
     for planet in &planets {
         let Some(index) = run.points.signals.iter().position(|l| *l == planet.label) else {
             continue;
@@ -77,7 +82,7 @@ pub fn figures(run: &SavedRun) -> Vec<PageFigure> {
             file: format!("phase_{}.svg", file_stem(&planet.label)),
             svg: phase_svg(&run.points, planet, index, &jit),
             caption: format!(
-                "Planet {}: RVs minus the other planets, offsets and trend, folded on P = {:.6} d from conjunction, one marker per epoch (error bars: uncertainty and jitter in quadrature), with the maximum-likelihood Keplerian (line), weighted means in 0.1-wide phase bins (open circles) and residuals of the full model below.",
+                "Planet {}: RVs minus the other planets, offsets and trend{activity_note}, folded on P = {:.6} d from conjunction, one marker per epoch (error bars: uncertainty and jitter in quadrature), with the maximum-likelihood Keplerian (line), weighted means in 0.1-wide phase bins (open circles) and residuals of the full model below.",
                 planet.label,
                 planet.orbit.period_d()
             ),
@@ -88,9 +93,18 @@ pub fn figures(run: &SavedRun) -> Vec<PageFigure> {
         section: "residuals",
         file: "residuals_time.svg".into(),
         svg: residuals_time_svg(&run.points, &jit),
-        caption: "Residuals of the full maximum-likelihood model against time, one panel per instrument (error bars: uncertainty and jitter in quadrature).".into(),
+        caption: format!("Residuals of the full maximum-likelihood model{activity_note} against time, one panel per instrument (error bars: uncertainty and jitter in quadrature)."),
         wide: false,
     });
+    if let Some(curve) = &run.activity {
+        figs.push(PageFigure {
+            section: "residuals",
+            file: "activity.svg".into(),
+            svg: activity_svg(&run.points, curve, &jit),
+            caption: "The stellar-activity model: RVs minus the planets, offsets and trend against time, one marker per epoch (error bars: uncertainty and jitter in quadrature), with the activity Gaussian process's conditional mean (line) and ±1σ (thin lines).".into(),
+            wide: false,
+        });
+    }
     if let Some(draws) = &run.draws
         && let Some(svg) = corner_svg(draws)
     {

@@ -15,6 +15,12 @@ use crate::pipeline::Analysis;
 /// Name of the table of data points as used.
 pub const POINTS_FILE: &str = "data_used.csv";
 
+/// Name of the table of the activity model's curve (with an activity GP only).
+pub const ACTIVITY_FILE: &str = "activity_model.csv";
+
+/// Times at which the activity model's curve is saved.
+const ACTIVITY_CURVE_POINTS: usize = 1500;
+
 /// A file of a run folder that could not be used, and why.
 #[derive(Debug, thiserror::Error)]
 #[error("{}: {problem}", file.display())]
@@ -37,15 +43,22 @@ impl SavedError {
 /// `data_used.csv`: one row per data point read, in time order, columns `file`, `row`,
 /// `instrument` (era name where an instrument was split), `time_bjd` (BJD_TDB), `rv_mps`,
 /// `rv_err_mps`, `model_mps` (planets + offset + trend of the maximum-likelihood fit),
-/// `residual_mps`, `status` (`used`, or why the point was left out: `outlier`,
-/// `in-transit`), `n_combined` (points binned into this one; `row` is the first of them),
-/// then one `signal_<label>_mps` column per planet (its Keplerian alone).
+/// `residual_mps` (with an activity GP also minus the activity model), `status` (`used`,
+/// or why the point was left out: `outlier`, `in-transit`), `n_combined` (points binned
+/// into this one; `row` is the first of them), with an activity GP `activity_mps` (the
+/// GP's conditional mean at the point, given the points used), then one
+/// `signal_<label>_mps` column per planet (its Keplerian alone).
 pub fn points_csv(a: &Analysis) -> String {
-    let params = &a.search.fit.params;
+    let fit = &a.search.fit;
+    let params = &fit.params;
+    let with_activity = fit.layout.activity.is_some();
     let mut s = String::from(
         "file,row,instrument,time_bjd,rv_mps,rv_err_mps,model_mps,residual_mps,status,n_combined",
     );
-    for p in &a.search.fit.planets {
+    if with_activity {
+        s.push_str(",activity_mps");
+    }
+    for p in &fit.planets {
         let _ = write!(s, ",signal_{}_mps", p.label.replace([',', '"', '\n'], " "));
     }
     s.push('\n');
@@ -62,6 +75,7 @@ pub fn points_csv(a: &Analysis) -> String {
         std::iter::once((&a.set, "used")).chain(a.data_log.left_out.iter().map(|(s, w)| (s, *w)));
     for (set, status) in parts {
         let model = params.predict(set);
+        let activity = fit.activity_prediction(&a.set, &set.time_d).map(|p| p.0);
         for (i, m) in model.iter().enumerate() {
             let o = set.origin[i];
             let file = set.files.get(o.file).map_or(String::new(), |f| {
@@ -80,8 +94,11 @@ pub fn points_csv(a: &Analysis) -> String {
                 set.rv_mps[i],
                 set.err_mps[i],
                 m,
-                set.rv_mps[i] - m
+                set.rv_mps[i] - m - activity.as_ref().map_or(0.0, |v| v[i])
             );
+            if let Some(v) = &activity {
+                let _ = write!(line, ",{}", v[i]);
+            }
             for orbit in &params.planets {
                 let _ = write!(line, ",{}", orbit.rv(t));
             }
@@ -109,8 +126,10 @@ pub struct Point {
     pub err_mps: f64,
     /// Model (planets + offset + trend), m/s.
     pub model_mps: f64,
-    /// Observed − model, m/s.
+    /// Observed − model (− activity model, with a GP), m/s.
     pub residual_mps: f64,
+    /// The activity GP's conditional mean at this time, m/s (0 without a GP).
+    pub activity_mps: f64,
     /// Each planet's Keplerian at this time, m/s (order of `signals`).
     pub signals_mps: Vec<f64>,
 }
@@ -169,11 +188,10 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
         ));
     }
     let extra = ["status", "n_combined"];
-    let first_signal = if header.len() >= fixed.len() + 2 && header[fixed.len()..][..2] == extra {
-        fixed.len() + 2
-    } else {
-        fixed.len()
-    };
+    let with_status = header.len() >= fixed.len() + 2 && header[fixed.len()..][..2] == extra;
+    let activity_column = fixed.len() + if with_status { 2 } else { 0 };
+    let with_activity = header.get(activity_column) == Some(&"activity_mps");
+    let first_signal = activity_column + usize::from(with_activity);
     let signals: Vec<String> = header[first_signal..]
         .iter()
         .map(|h| {
@@ -205,7 +223,7 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
                     ))
                 })
         };
-        if first_signal > fixed.len() && f[fixed.len()] != "used" {
+        if with_status && f[fixed.len()] != "used" {
             continue;
         }
         points.push(Point {
@@ -215,6 +233,11 @@ pub fn read_points(path: &Path) -> Result<Points, SavedError> {
             err_mps: num(5)?,
             model_mps: num(6)?,
             residual_mps: num(7)?,
+            activity_mps: if with_activity {
+                num(activity_column)?
+            } else {
+                0.0
+            },
             signals_mps: (first_signal..f.len()).map(num).collect::<Result<_, _>>()?,
         });
     }
@@ -315,6 +338,61 @@ pub fn read_draws(path: &Path) -> Result<Vec<(String, Vec<f64>)>, SavedError> {
         .collect())
 }
 
+/// The activity model's curve: times (BJD_TDB), conditional mean and standard deviation
+/// (m/s) of the activity GP.
+pub type ActivityCurve = Vec<[f64; 3]>;
+
+/// `activity_model.csv`, columns `time_bjd,mean_mps,sd_mps`: the activity GP's
+/// conditional mean and standard deviation on an even grid from 2 % before the first
+/// point to 2 % after the last; `None` without a GP.
+pub fn activity_csv(a: &Analysis) -> Option<String> {
+    let set = &a.set;
+    let (t0, t1) = (set.time_d[0], set.time_d[set.len() - 1]);
+    let pad = 0.02 * (t1 - t0);
+    let n = ACTIVITY_CURVE_POINTS;
+    let at: Vec<f64> = (0..n)
+        .map(|k| t0 - pad + (t1 - t0 + 2.0 * pad) * k as f64 / (n - 1) as f64)
+        .collect();
+    let (mean, var) = a.search.fit.activity_prediction(set, &at)?;
+    let mut s = String::from("time_bjd,mean_mps,sd_mps\n");
+    for k in 0..n {
+        let _ = writeln!(
+            s,
+            "{:.8},{},{}",
+            set.epoch_bjd + at[k],
+            mean[k],
+            var[k].max(0.0).sqrt()
+        );
+    }
+    Some(s)
+}
+
+/// Reads `activity_model.csv`.
+///
+/// # Errors
+/// [`SavedError`] naming the file and, for a bad row, its line.
+pub fn read_activity(path: &Path) -> Result<ActivityCurve, SavedError> {
+    let text = fs::read_to_string(path).map_err(|e| SavedError::new(path, e.to_string()))?;
+    let mut lines = text.lines();
+    if lines.next() != Some("time_bjd,mean_mps,sd_mps") {
+        return Err(SavedError::new(
+            path,
+            "line 1: expected the columns time_bjd,mean_mps,sd_mps",
+        ));
+    }
+    lines
+        .enumerate()
+        .map(|(k, line)| {
+            let v: Vec<f64> = fields(line)
+                .iter()
+                .filter_map(|x| x.parse::<f64>().ok().filter(|v| v.is_finite()))
+                .collect();
+            <[f64; 3]>::try_from(v)
+                .map_err(|_| SavedError::new(path, format!("line {}: expected 3 numbers", k + 2)))
+        })
+        .collect()
+}
+
 /// Everything a report is drawn from, read from a run folder.
 #[derive(Clone, Debug)]
 pub struct SavedRun {
@@ -328,10 +406,12 @@ pub struct SavedRun {
     pub periodograms: Option<SavedPeriodograms>,
     /// `draws.parquet`, when the run wrote draws.
     pub draws: Option<Vec<(String, Vec<f64>)>>,
+    /// `activity_model.csv`, when the run had an activity GP.
+    pub activity: Option<ActivityCurve>,
 }
 
 /// Reads a run folder: `results.json` and `data_used.csv` are required, the
-/// periodograms and draws are read when present.
+/// periodograms, draws and activity model are read when present.
 ///
 /// # Errors
 /// [`SavedError`] naming the first file that is missing or malformed.
@@ -360,11 +440,18 @@ pub fn read_run(dir: &Path) -> Result<SavedRun, SavedError> {
     } else {
         None
     };
+    let activity_path = dir.join(ACTIVITY_FILE);
+    let activity = if activity_path.exists() {
+        Some(read_activity(&activity_path)?)
+    } else {
+        None
+    };
     Ok(SavedRun {
         dir: dir.to_path_buf(),
         results,
         points,
         periodograms,
         draws,
+        activity,
     })
 }

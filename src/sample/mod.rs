@@ -73,6 +73,8 @@ pub struct Posterior {
     pub instruments: Vec<InstrumentEstimate>,
     /// Trend coefficients summarised from the draws, m/s/yr^k.
     pub trend: Vec<Summary>,
+    /// Activity hyperparameters by key, physical units, summarised from the draws.
+    pub activity: Vec<(String, Summary)>,
     /// Reference epoch of the data (full BJD_TDB).
     pub epoch_bjd: f64,
     /// Warnings (e.g. priors not used).
@@ -233,6 +235,7 @@ fn sample_mode(
         detections: Vec::new(),
         instruments: Vec::new(),
         trend: Vec::new(),
+        activity: Vec::new(),
         epoch_bjd: post.set.epoch_bjd,
         warnings: Vec::new(),
         modes: Vec::new(),
@@ -260,7 +263,7 @@ fn starting_walkers(
         .iter()
         .zip(&roles)
         .map(|(s, r)| match r {
-            Role::ECosW(_) | Role::ESinW(_) | Role::Jitter(_) => 1e-2,
+            Role::ECosW(_) | Role::ESinW(_) | Role::Jitter(_) | Role::Activity(_) => 1e-2,
             _ => 1e-2 * s,
         })
         .collect();
@@ -361,7 +364,28 @@ impl Posterior {
                 noise.iter().map(|n| n.2[p]).collect(),
             ));
         }
+        cols.extend(self.activity_draws());
         cols
+    }
+
+    /// Draws of each activity hyperparameter, physical units, named `activity.KEY`.
+    fn activity_draws(&self) -> Vec<(String, Vec<f64>)> {
+        let values: Vec<Vec<f64>> = self
+            .theta
+            .iter()
+            .map(|t| self.layout.activity_values(t))
+            .collect();
+        self.layout
+            .activity_keys()
+            .iter()
+            .enumerate()
+            .map(|(q, key)| {
+                (
+                    format!("activity.{key}"),
+                    values.iter().map(|v| v[q]).collect(),
+                )
+            })
+            .collect()
     }
 
     /// Fills the summaries from the draws.
@@ -426,6 +450,14 @@ impl Posterior {
             .collect();
         self.trend = (0..self.layout.trend)
             .map(|p| summary(&noise.iter().map(|n| n.2[p]).collect::<Vec<_>>()))
+            .collect();
+        self.activity = self
+            .activity_draws()
+            .into_iter()
+            .map(|(name, draws)| {
+                let key = name.trim_start_matches("activity.").to_string();
+                (key, summary(&draws))
+            })
             .collect();
         self.planets = planets;
         self.detections = detections;

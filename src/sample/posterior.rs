@@ -5,13 +5,15 @@
 //! Sampling vector ψ, in the order of the fit's θ ([`Layout`]): per planet `P` [d]
 //! (unless fixed), `K` [m/s], `√e cos ω`, `√e sin ω`, `Tc` [d from the reference epoch];
 //! per instrument the offset [m/s]; per instrument `ln s` (s = jitter in m/s); the trend
-//! coefficients [m/s/yr^k].
+//! coefficients [m/s/yr^k]; the indicator coefficients; and the natural logarithm of each
+//! activity hyperparameter.
 //!
 //! # Jacobians
 //! Priors are densities of the physical quantities. The map (e, ω) → (√e cos ω,
 //! √e sin ω) has Jacobian determinant 1/2 (constant), so a prior p(e) with ω uniform on
 //! [0, 2π) is the density p(e) in ψ up to a constant. For s = exp(ψ) the density in ψ is
-//! p(s) · s. Every other coordinate is the physical quantity itself.
+//! p(s) · s, and likewise for each activity hyperparameter x = exp(ψ). Every other
+//! coordinate is the physical quantity itself.
 
 use super::SampleError;
 use super::prior::Prior;
@@ -65,7 +67,10 @@ impl PriorSet {
     ///   peak-to-peak range;
     /// - jitter: uniform on [0, s_max], s_max = the larger of the instrument's
     ///   peak-to-peak range, 10 × its median error and 3 ŝ;
-    /// - trend order k: uniform on ±10 R / (span in years)^k.
+    /// - trend order k: uniform on ±10 R / (span in years)^k;
+    /// - activity hyperparameters: log-uniform on their bounds
+    ///   ([`crate::gp::ActivityLayout::new`]), the rotation period and any hyperparameter
+    ///   trained on an indicator Gaussian (the fit's priors) cut at its bounds.
     pub fn defaults(set: &RvSet, fit: &Fit, period_range_d: (f64, f64)) -> PriorSet {
         let layout = &fit.layout;
         let n_inst = set.n_instruments();
@@ -182,6 +187,27 @@ impl PriorSet {
                         let c = layout.regressor_target(r).0;
                         let b = 10.0 * range.max(median_err) / set.indicator_spread(c);
                         default(names[j].clone(), Prior::uniform(-b, b))
+                    }
+                    Role::Activity(q) => {
+                        let a = layout.activity.as_ref().expect("activity roles have a GP");
+                        let parameter = format!("activity.{}", a.model.keys()[q]);
+                        let (lo, hi) = a.bounds[q];
+                        let gaussian = if q == crate::gp::Activity::ROTATION {
+                            Some((a.rotation, "rotation"))
+                        } else {
+                            a.trained[q].map(|p| (p, "indicator"))
+                        };
+                        match gaussian.and_then(|((m, sd), source)| {
+                            Some((Prior::gaussian(m, sd, Some((lo, hi))).ok()?, source))
+                        }) {
+                            Some((prior, source)) => Some(PriorEntry {
+                                parameter,
+                                prior,
+                                source,
+                                shift: 0.0,
+                            }),
+                            None => default(parameter, Prior::log_uniform(lo, hi)),
+                        }
                     }
                 }
             })
@@ -365,7 +391,7 @@ impl<'a> LogPosterior<'a> {
             Role::ECosW(_) => entry
                 .prior
                 .ln_density(psi[j] * psi[j] + psi[j + 1] * psi[j + 1]),
-            Role::Jitter(_) => entry.prior.ln_density(psi[j].exp()) + psi[j],
+            Role::Jitter(_) | Role::Activity(_) => entry.prior.ln_density(psi[j].exp()) + psi[j],
             _ => entry.prior.ln_density(psi[j] + entry.shift),
         }
     }
@@ -400,10 +426,8 @@ impl<'a> LogPosterior<'a> {
 
     /// Log-likelihood at ψ (−∞ for invalid values).
     pub fn ln_likelihood(&self, psi: &[f64]) -> f64 {
-        match self.layout.params(&self.to_theta(psi), 1.0) {
-            Some(p) => p.log_likelihood(self.set),
-            None => f64::NEG_INFINITY,
-        }
+        self.layout
+            .log_likelihood(&self.to_theta(psi), 1.0, self.set)
     }
 
     /// Log-posterior (up to a constant) at ψ; −∞ outside the priors or for NaN.
