@@ -405,14 +405,16 @@ fn activity_report_shows_the_model_and_removes_it() {
     let n_points = doc["data"]["n_points"].as_u64().unwrap() as usize;
     let used = read(&run_dir.join("data_used.csv"));
     assert!(used.lines().next().unwrap().starts_with(
-        "file,row,instrument,time_bjd,rv_mps,rv_err_mps,model_mps,residual_mps,status,n_combined,activity_mps"
+        "file,row,instrument,time_bjd,rv_mps,rv_err_mps,model_mps,residual_mps,status,\
+         n_combined,activity_mps"
     ));
     // rv − model − residual − activity = 0 (columns 4, 6, 7 and 10).
     for line in used.lines().skip(1) {
         let f: Vec<&str> = line.split(',').collect();
-        let x = |j: usize| f[j].parse::<f64>().unwrap();
+        let num = |i: usize| f[i].parse::<f64>().unwrap();
+        let (rv, model, residual, activity) = (num(4), num(6), num(7), num(10));
         assert!(
-            (x(4) - x(6) - x(7) - x(10)).abs() < 1e-9 * x(4).abs().max(1.0),
+            (rv - model - residual - activity).abs() < 1e-9 * rv.abs().max(1.0),
             "{line}"
         );
     }

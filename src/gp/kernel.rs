@@ -120,6 +120,36 @@ impl Term {
     /// [`Term::QuasiPeriodic`]: `2k`, `k τ²/λ²`, `k πτ sin(2πτ/P)/(2w²P)`,
     /// `k sin²(πτ/P)/w²`); `None` for other terms.
     pub fn log_gradient(&self, tau_d: f64) -> Option<[f64; 4]> {
+        let QuasiPeriodicLag { k, x, l2, w2, .. } = self.quasi_periodic_lag(tau_d)?;
+        Some([
+            2.0 * k,
+            k * tau_d * tau_d / l2,
+            k * x * (2.0 * x).sin() / (2.0 * w2),
+            k * x.sin().powi(2) / w2,
+        ])
+    }
+
+    /// The quasi-periodic covariance and its first and second derivatives with respect to
+    /// the lag, `[k, dk/dτ, d²k/dτ²]` at `tau_d` (days) in m²/s², m²/s²/d and m²/s²/d²;
+    /// `None` for other terms. With `x = πτ/P` and `k = h² eᶠ`, differentiating the formula
+    /// of [`Term::QuasiPeriodic`] gives `f′ = −π sin(2x)/(2w²P) − τ/λ²`,
+    /// `f″ = −π² cos(2x)/(w²P²) − 1/λ²`, `k′ = k f′`, `k″ = k (f′² + f″)`.
+    pub fn lag_derivatives(&self, tau_d: f64) -> Option<[f64; 3]> {
+        let QuasiPeriodicLag {
+            k,
+            x,
+            l2,
+            w2,
+            period_d,
+        } = self.quasi_periodic_lag(tau_d)?;
+        let f1 = -std::f64::consts::PI * (2.0 * x).sin() / (2.0 * w2 * period_d) - tau_d / l2;
+        let f2 = -(std::f64::consts::PI / period_d).powi(2) * (2.0 * x).cos() / w2 - 1.0 / l2;
+        Some([k, k * f1, k * (f1 * f1 + f2)])
+    }
+
+    /// The pieces of a quasi-periodic term at lag `tau_d` (days) that its derivatives
+    /// share; `None` for other terms.
+    fn quasi_periodic_lag(&self, tau_d: f64) -> Option<QuasiPeriodicLag> {
         let Term::QuasiPeriodic {
             evolution_d,
             period_d,
@@ -129,15 +159,13 @@ impl Term {
         else {
             return None;
         };
-        let k = self.covariance(tau_d);
-        let x = std::f64::consts::PI * tau_d / period_d;
-        let w2 = smoothness * smoothness;
-        Some([
-            2.0 * k,
-            k * tau_d * tau_d / (evolution_d * evolution_d),
-            k * x * (2.0 * x).sin() / (2.0 * w2),
-            k * x.sin().powi(2) / w2,
-        ])
+        Some(QuasiPeriodicLag {
+            k: self.covariance(tau_d),
+            x: std::f64::consts::PI * tau_d / period_d,
+            l2: evolution_d * evolution_d,
+            w2: smoothness * smoothness,
+            period_d,
+        })
     }
 
     /// The term as `e^{−cτ} [a cos(dτ) + b sin(dτ)]` (Foreman-Mackey et al. 2017, eq. 23
@@ -162,6 +190,20 @@ impl Term {
             }
         }
     }
+}
+
+/// A quasi-periodic term evaluated at one lag τ.
+struct QuasiPeriodicLag {
+    /// `k(τ)`, m²/s².
+    k: f64,
+    /// `πτ/P`, radians.
+    x: f64,
+    /// `λ²`, d².
+    l2: f64,
+    /// `w²`.
+    w2: f64,
+    /// `P`, days.
+    period_d: f64,
 }
 
 /// A sum of covariance terms.
@@ -245,6 +287,49 @@ mod tests {
                 assert!((g[q] - fd).abs() < 1e-7 * fd.abs().max(1.0), "{tau} {q}");
             }
         }
+    }
+
+    /// The analytic lag derivatives of the quasi-periodic kernel against central
+    /// differences of the covariance (first and second derivative) and of the analytic
+    /// first derivative (second), including zero lag where `k′ = 0` and `k″ = −h²(π²/(w²P²) +
+    /// 1/λ²)` (the formula at τ = 0).
+    #[test]
+    fn quasi_periodic_lag_derivatives() {
+        let (h, lam, p, w) = (2.5_f64, 30.0_f64, 11.0_f64, 0.6_f64);
+        let term = Term::QuasiPeriodic {
+            amplitude_mps: h,
+            evolution_d: lam,
+            period_d: p,
+            smoothness: w,
+        };
+        let step = 1e-5;
+        for tau in [0.0, 0.4, 1.7, -6.2, 23.0, -41.3] {
+            let [k, d1, d2] = term.lag_derivatives(tau).unwrap();
+            assert_eq!(k, term.covariance(tau));
+            let fd1 = (term.covariance(tau + step) - term.covariance(tau - step)) / (2.0 * step);
+            let slope = |t: f64| term.lag_derivatives(t).unwrap()[1];
+            let fd2 = (slope(tau + step) - slope(tau - step)) / (2.0 * step);
+            assert!((d1 - fd1).abs() < 1e-7 * h * h, "{tau}: {d1} vs {fd1}");
+            assert!((d2 - fd2).abs() < 1e-7 * h * h, "{tau}: {d2} vs {fd2}");
+            let wide = 1e-4;
+            let second = (term.covariance(tau + wide) - 2.0 * k + term.covariance(tau - wide))
+                / (wide * wide);
+            assert!(
+                (d2 - second).abs() < 1e-6 * h * h,
+                "{tau}: {d2} vs {second}"
+            );
+        }
+        let [_, d1, d2] = term.lag_derivatives(0.0).unwrap();
+        let pi = std::f64::consts::PI;
+        assert_eq!(d1, 0.0);
+        let expected = -h * h * (pi * pi / (w * w * p * p) + 1.0 / (lam * lam));
+        assert!((d2 - expected).abs() < 1e-12 * expected.abs());
+        let osc = Term::Oscillator {
+            amplitude_mps: 1.0,
+            period_d: 5.0,
+            quality: 2.0,
+        };
+        assert_eq!(osc.lag_derivatives(1.0), None);
     }
 
     /// The quasi-periodic kernel is periodic in the limit λ → ∞ and equals h² at whole

@@ -2,7 +2,8 @@
 //! exact dense Cholesky solver and the O(N) semiseparable solver of Foreman-Mackey et al.
 //! (2017, AJ 154, 220) ([`semiseparable`]), the GP log-likelihood and the GP prediction
 //! (mean and variance) at any times (Rasmussen & Williams 2006, *Gaussian Processes for
-//! Machine Learning*, eqs. 2.25–2.26 and 2.30).
+//! Machine Learning*, eqs. 2.25–2.26 and 2.30), and the joint model of several series
+//! driven by one latent process and its derivative (Rajpaul et al. 2015) ([`joint`]).
 //!
 //! The covariance of N points at times `t` (days) is
 //! `K[n][m] = white[n] δ[n][m] + s_n s_m k(t_n − t_m)` with `white` the white variance of
@@ -10,6 +11,7 @@
 //! instrument has its own GP amplitude) and `k` a [`Kernel`].
 
 pub mod activity;
+pub mod joint;
 pub mod kernel;
 pub mod semiseparable;
 
@@ -17,6 +19,7 @@ pub use activity::{
     Activity, ActivityLayout, ROTATION_SD_FRACTION, ROTATION_TOLERANCE, near_rotation,
     rotation_prior,
 };
+pub use joint::{Coupling, JointKernel, JointPoints};
 pub use kernel::{Kernel, Term};
 pub use semiseparable::SemiseparableFactor;
 
@@ -136,8 +139,7 @@ impl Points<'_> {
         if r.len() != self.time_d.len() {
             return Err(GpError::Length(r.len(), self.time_d.len()));
         }
-        let f = self.factor(kernel, solver)?;
-        Ok(-0.5 * (f.quadratic(r) + f.log_det() + r.len() as f64 * std::f64::consts::TAU.ln()))
+        Ok(self.factor(kernel, solver)?.log_likelihood(r))
     }
 
     /// The GP's conditional mean and variance (m/s, m²/s²; the activity signal alone, no
@@ -163,23 +165,37 @@ impl Points<'_> {
         let f = self.factor(kernel, solver)?;
         let alpha = f.solve(r);
         let k0 = kernel.covariance(0.0);
-        let mut mean = Vec::with_capacity(at_d.len());
-        let mut var = Vec::with_capacity(at_d.len());
-        for (&t, &s) in at_d.iter().zip(at_scale) {
-            let kstar: Vec<f64> = self
-                .time_d
-                .iter()
-                .zip(self.scale)
-                .map(|(&ti, &si)| s * si * kernel.covariance(t - ti))
-                .collect();
-            mean.push(kstar.iter().zip(&alpha).map(|(a, b)| a * b).sum());
-            var.push(s * s * k0 - f.quadratic(&kstar));
-        }
-        Ok((mean, var))
+        Ok(at_d
+            .iter()
+            .zip(at_scale)
+            .map(|(&t, &s)| {
+                let kstar: Vec<f64> = self
+                    .time_d
+                    .iter()
+                    .zip(self.scale)
+                    .map(|(&ti, &si)| s * si * kernel.covariance(t - ti))
+                    .collect();
+                f.condition(&alpha, &kstar, s * s * k0)
+            })
+            .unzip())
     }
 }
 
 impl Factor {
+    /// Log-likelihood of `r` under the factorised covariance:
+    /// `ln L = −½ [rᵀK⁻¹r + ln det K + N ln 2π]` (Rasmussen & Williams 2006, eq. 2.30).
+    pub fn log_likelihood(&self, r: &[f64]) -> f64 {
+        -0.5 * (self.quadratic(r) + self.log_det() + r.len() as f64 * std::f64::consts::TAU.ln())
+    }
+
+    /// Conditional mean and variance of one unobserved value given `alpha = K⁻¹r`, its
+    /// covariances `kstar` with the data and its prior variance `prior`:
+    /// `μ = k*ᵀα`, `v = prior − k*ᵀK⁻¹k*` (Rasmussen & Williams 2006, eqs. 2.25–2.26).
+    pub fn condition(&self, alpha: &[f64], kstar: &[f64], prior: f64) -> (f64, f64) {
+        let mean = kstar.iter().zip(alpha).map(|(a, b)| a * b).sum();
+        (mean, prior - self.quadratic(kstar))
+    }
+
     /// `ln det K`.
     pub fn log_det(&self) -> f64 {
         match self {
