@@ -1,15 +1,12 @@
-//! Injection–recovery with simulated stellar activity: an invented planet (P = 9.3 d,
-//! K = 4 m/s, circular) plus a quasi-periodic GP draw of amplitude 10 m/s (2.5 × K;
-//! rotation 13.7 d, not a multiple of the orbital period; evolution 25 d; smoothness 0.5)
-//! and 1 m/s white noise, 110 epochs over 160 days, in 12 realisations.
+//! Injection–recovery with simulated stellar activity: an invented circular planet
+//! (P = 9.3 d, K = 4 m/s) plus quasi-periodic activity of amplitude 10 m/s (2.5 × K;
+//! rotation 13.7 d, neither a multiple nor a harmonic of the orbital period; smoothness
+//! 0.5) and 1 m/s white noise; every point has a stated error of 1 m/s.
 //!
-//! The activity is drawn from a dense Cholesky factor of its covariance (Rasmussen &
-//! Williams 2006, §A.2: x = L z), not from heft's fitting code. Checks: the GP fit's K
-//! lies within 1σ of the truth in most realisations (at least 7 of 12; 68 % expected),
-//! and the white-noise fit's K errors are larger (rms at least 1.5 × the GP fit's). Both
-//! sets of K, their mean and rms errors and their 1σ coverage are printed. (In this
-//! scenario the white-noise fit's own σ, inflated by a large fitted jitter, covers its
-//! scattered K values; its estimates are worse, not overconfident.)
+//! The activity is drawn from a dense Cholesky factor of the covariance of the
+//! quasi-periodic kernel (Haywood et al. 2014, MNRAS 443, 2517; Rajpaul et al. 2015,
+//! MNRAS 452, 2269, eq. 4) at the epochs (Rasmussen & Williams 2006, *Gaussian Processes
+//! for Machine Learning*, §A.2: x = L z, z standard normal), not from heft's fitting code.
 
 use heft::data::{Indicator, RvSet};
 use heft::fit::{self, FitOptions, PlanetSpec};
@@ -21,18 +18,23 @@ use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::StandardNormal;
 
+/// Injected semi-amplitude, m/s.
 const K_TRUE: f64 = 4.0;
+/// Injected orbital period, days.
 const P_TRUE: f64 = 9.3;
+/// Injected rotation period, days.
 const P_ROT: f64 = 13.7;
+/// Evolution timescale of the activity at uniformly random epochs, days.
+const EVOLUTION_D: f64 = 25.0;
 
-/// `n` invented sorted times and a draw of the injected quasi-periodic activity at them.
-fn activity_draw(rng: &mut ChaCha8Rng, n: usize) -> (Vec<f64>, Vec<f64>) {
-    let mut t: Vec<f64> = (0..n).map(|_| rng.random_range(-80.0..80.0)).collect();
-    t.sort_by(f64::total_cmp);
+/// A draw of the injected activity (10 m/s, rotation [`P_ROT`], smoothness 0.5,
+/// evolution timescale `evolution_d` days) at times `t` (days), in m/s.
+fn activity_at(rng: &mut ChaCha8Rng, t: &[f64], evolution_d: f64) -> Vec<f64> {
+    let n = t.len();
     let kernel = Kernel {
         terms: vec![Term::QuasiPeriodic {
             amplitude_mps: 10.0,
-            evolution_d: 25.0,
+            evolution_d,
             period_d: P_ROT,
             smoothness: 0.5,
         }],
@@ -40,25 +42,61 @@ fn activity_draw(rng: &mut ChaCha8Rng, n: usize) -> (Vec<f64>, Vec<f64>) {
     let tiny = vec![1e-8; n];
     let ones = vec![1.0; n];
     let cov = Points {
-        time_d: &t,
+        time_d: t,
         white: &tiny,
         scale: &ones,
     }
     .covariance(&kernel);
     let l = cov.cholesky().expect("positive definite").l();
     let z = DVector::from_fn(n, |_, _| rng.sample::<f64, _>(StandardNormal));
-    (t, (l * z).as_slice().to_vec())
+    (l * z).as_slice().to_vec()
 }
 
-fn realisation(seed: u64) -> RvSet {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let n = 110;
-    let (t, activity) = activity_draw(&mut rng, n);
-    let phase0 = rng.random_range(0.0..P_TRUE);
-    let rv: Vec<f64> = (0..n)
-        .map(|i| {
-            K_TRUE * (std::f64::consts::TAU * (t[i] - phase0) / P_TRUE).sin()
-                + activity[i]
+/// `n` sorted times uniformly random over 160 days and the activity (evolution
+/// [`EVOLUTION_D`]) at them, days and m/s.
+fn activity_draw(rng: &mut ChaCha8Rng, n: usize) -> (Vec<f64>, Vec<f64>) {
+    let mut t: Vec<f64> = (0..n).map(|_| rng.random_range(-80.0..80.0)).collect();
+    t.sort_by(f64::total_cmp);
+    let activity = activity_at(rng, &t, EVOLUTION_D);
+    (t, activity)
+}
+
+/// Invented campaign cadence over 180 days, in days: six observing runs of 12
+/// consecutive nights, one starting on a random night of each 30-day block; each night
+/// clear with probability 0.85, and two exposures about 2 h (0.08 d) apart on a clear
+/// night.
+fn campaign_times(rng: &mut ChaCha8Rng) -> Vec<f64> {
+    let mut t = Vec::new();
+    for run in 0..6 {
+        let first = (30.0 * run as f64 + rng.random_range(0.0..18.0)).floor();
+        for night in 0..12 {
+            if rng.random_range(0.0..1.0) < 0.15 {
+                continue;
+            }
+            for exposure in 0..2 {
+                t.push(
+                    first
+                        + night as f64
+                        + 0.1
+                        + 0.08 * exposure as f64
+                        + rng.random_range(0.0..0.02),
+                );
+            }
+        }
+    }
+    t
+}
+
+/// The planet (its velocity rising through zero at `phase_d` days), `activity` and 1 m/s
+/// white noise at times `t` (days), as one instrument's data.
+fn injected(rng: &mut ChaCha8Rng, t: Vec<f64>, activity: &[f64], phase_d: f64) -> RvSet {
+    let n = t.len();
+    let rv: Vec<f64> = t
+        .iter()
+        .zip(activity)
+        .map(|(ti, a)| {
+            K_TRUE * (std::f64::consts::TAU * (ti - phase_d) / P_TRUE).sin()
+                + a
                 + rng.sample::<f64, _>(StandardNormal)
         })
         .collect();
@@ -73,9 +111,17 @@ fn realisation(seed: u64) -> RvSet {
     )
 }
 
-#[test]
-fn gp_recovers_k_better_than_white_noise() {
-    let spec = PlanetSpec {
+/// 110 uniformly random epochs over 160 days, random orbital phase.
+fn realisation(seed: u64) -> RvSet {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let (t, activity) = activity_draw(&mut rng, 110);
+    let phase = rng.random_range(0.0..P_TRUE);
+    injected(&mut rng, t, &activity, phase)
+}
+
+/// The fitted planet: circular, free period starting at the truth, K starting at 3 m/s.
+fn planet() -> PlanetSpec {
+    PlanetSpec {
         period_d: P_TRUE,
         fix_period: false,
         k_mps: 3.0,
@@ -84,7 +130,66 @@ fn gp_recovers_k_better_than_white_noise() {
         period_prior: None,
         tc_prior: None,
         label: "b".into(),
-    };
+    }
+}
+
+/// How a set of K estimates `(value, 1σ)` (m/s) meets the truth.
+struct Tally {
+    /// Estimates within 1σ of the truth.
+    within: usize,
+    /// Mean of `K − K_true`, m/s.
+    mean: f64,
+    /// Standard error of that mean, m/s.
+    se: f64,
+    /// Root mean square of `K − K_true`, m/s.
+    rms: f64,
+    /// Mean of `|K − K_true| / σ` (√(2/π) ≈ 0.80 for correct Gaussian errors).
+    mean_z: f64,
+    /// Mean stated σ, m/s.
+    mean_sigma: f64,
+}
+
+impl Tally {
+    fn new(k: &[(f64, f64)]) -> Tally {
+        let n = k.len() as f64;
+        let err: Vec<f64> = k.iter().map(|(v, _)| v - K_TRUE).collect();
+        let mean = err.iter().sum::<f64>() / n;
+        let var = err.iter().map(|e| (e - mean).powi(2)).sum::<f64>() / (n - 1.0);
+        Tally {
+            within: k.iter().filter(|(v, s)| (v - K_TRUE).abs() <= *s).count(),
+            mean,
+            se: (var / n).sqrt(),
+            rms: (err.iter().map(|e| e * e).sum::<f64>() / n).sqrt(),
+            mean_z: k.iter().map(|(v, s)| (v - K_TRUE).abs() / s).sum::<f64>() / n,
+            mean_sigma: k.iter().map(|(_, s)| s).sum::<f64>() / n,
+        }
+    }
+}
+
+/// Where a white-noise fit of an active star goes wrong: campaign cadence
+/// ([`campaign_times`], about 120 points) and long-lived active regions (evolution
+/// timescale 80 d), in 40 realisations. Within a run the activity is nearly constant from
+/// one exposure to the next and changes slowly from night to night, so the points are
+/// far from independent, and the white-noise fit (free jitter) reads part of the activity
+/// as planet.
+///
+/// Checks: the white-noise fit's K is biased high (mean error at least 3 standard errors
+/// above zero) and its stated σ too small (at most 16 of 40 within 1σ; 68 % for correct Gaussian errors, common practice);
+/// the GP fit (quasi-periodic model, rotation prior 13.7 ± 1.37 d) covers the truth within
+/// 1σ in most realisations (at least 24 of 40) and is not biased (mean error within 3
+/// standard errors of zero). Both fits' K, their coverage, mean error ± standard error,
+/// rms error, mean |z| and mean σ are printed.
+///
+/// Seen over three sets of 40 realisations (seeds from 1000, 5000 and 9000): white fit
+/// 10–12 within 1σ, mean error +1.5 to +1.9 m/s (4–6 standard errors), rms 2.6–2.8 m/s
+/// against a stated σ of about 0.9 m/s; GP fit 27–30 within 1σ, mean error −0.05 to
+/// +0.05 m/s (within 1 standard error), rms 0.3–0.4 m/s, mean |z| 0.70–0.82. With
+/// uniformly random epochs the white fit's jitter-inflated σ covered its scattered K (18
+/// of 24 within 1σ, mean error +0.69 ± 0.27 m/s: imprecise and slightly high rather than
+/// overconfident). With 8-night runs of three exposures and a 25-day evolution
+/// timescale the GP fit was itself biased high (+0.96 ± 0.25 m/s, 14 of 24 within 1σ).
+#[test]
+fn gp_recovers_k_where_the_white_noise_fit_is_biased() {
     let white = FitOptions {
         shape: OrbitShape::Circular,
         trend: 0,
@@ -95,40 +200,56 @@ fn gp_recovers_k_better_than_white_noise() {
         rotation_d: Some(heft::gp::rotation_prior(P_ROT, 0.0)),
         ..white.clone()
     };
-    let (mut within_gp, mut within_white) = (0, 0);
-    let (mut ss_gp, mut ss_white) = (0.0, 0.0);
-    let (mut sum_gp, mut sum_white) = (0.0, 0.0);
-    let runs = 12;
-    println!("realisation: K white (±σ) | K GP (±σ), truth {K_TRUE} m/s");
-    for seed in 0..runs {
-        let set = realisation(100 + seed);
+    let spec = [planet()];
+    let (mut k_white, mut k_gp) = (Vec::new(), Vec::new());
+    println!("realisation (points): K white ± σ (period) | K GP ± σ (period), truth {K_TRUE} m/s");
+    for seed in 1000..1040 {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let t = campaign_times(&mut rng);
+        let activity = activity_at(&mut rng, &t, 80.0);
+        let phase = rng.random_range(0.0..P_TRUE);
+        let set = injected(&mut rng, t, &activity, phase);
         let k = |o: &FitOptions| {
-            let f = fit::fit(&set, std::slice::from_ref(&spec), o).unwrap();
+            let f = fit::fit(&set, &spec, o).unwrap();
             let s = f.planets[0].k_mps;
-            (s.value, 0.5 * (s.minus + s.plus))
+            (
+                s.value,
+                0.5 * (s.minus + s.plus),
+                f.planets[0].period_d.value,
+            )
         };
-        let (kw, sw) = k(&white);
-        let (kg, sg) = k(&gp);
-        println!("{seed:>2}: {kw:6.2} ± {sw:4.2} | {kg:6.2} ± {sg:4.2}");
-        within_white += usize::from((kw - K_TRUE).abs() <= sw);
-        within_gp += usize::from((kg - K_TRUE).abs() <= sg);
-        ss_white += (kw - K_TRUE).powi(2);
-        ss_gp += (kg - K_TRUE).powi(2);
-        sum_white += kw - K_TRUE;
-        sum_gp += kg - K_TRUE;
+        let (kw, sw, pw) = k(&white);
+        let (kg, sg, pg) = k(&gp);
+        println!(
+            "{seed} ({:>3}): {kw:5.2} ± {sw:4.2} ({pw:5.2} d) | {kg:5.2} ± {sg:4.2} ({pg:5.2} d)",
+            set.time_d.len()
+        );
+        k_white.push((kw, sw));
+        k_gp.push((kg, sg));
     }
-    let (rms_white, rms_gp) = (
-        (ss_white / runs as f64).sqrt(),
-        (ss_gp / runs as f64).sqrt(),
+    let runs = k_white.len();
+    let (w, g) = (Tally::new(&k_white), Tally::new(&k_gp));
+    println!("fit   | within 1σ | mean K error (m/s) | rms (m/s) | mean |z| | mean σ (m/s)");
+    for (name, t) in [("white", &w), ("GP", &g)] {
+        println!(
+            "{name:<5} | {:>6}/{runs} | {:+6.2} ± {:4.2}      | {:9.2} | {:8.2} | {:6.2}",
+            t.within, t.mean, t.se, t.rms, t.mean_z, t.mean_sigma
+        );
+    }
+    assert!(
+        w.mean >= 3.0 * w.se,
+        "white fit not biased: {:+.2} ± {:.2}",
+        w.mean,
+        w.se
     );
-    let n = runs as f64;
-    println!(
-        "within 1σ: white {within_white}/{runs}, GP {within_gp}/{runs}; mean K error: white {:+.2} m/s, GP {:+.2} m/s; rms K error: white {rms_white:.2} m/s, GP {rms_gp:.2} m/s",
-        sum_white / n,
-        sum_gp / n
+    assert!(w.within <= 16, "white fit within 1σ in {}/{runs}", w.within);
+    assert!(g.within >= 24, "GP fit within 1σ in {}/{runs}", g.within);
+    assert!(
+        g.mean.abs() <= 3.0 * g.se,
+        "GP fit biased: {:+.2} ± {:.2}",
+        g.mean,
+        g.se
     );
-    assert!(within_gp >= 7, "GP fit within 1σ in {within_gp}/{runs}");
-    assert!(rms_white >= 1.5 * rms_gp, "{rms_white} vs {rms_gp}");
 }
 
 /// Training on an indicator: the indicator is the same activity (its draw scaled to an
@@ -142,26 +263,11 @@ fn indicator_training_gives_priors_for_the_rv_fit() {
     let mut rng = ChaCha8Rng::seed_from_u64(7);
     let n = 110;
     let (t, activity) = activity_draw(&mut rng, n);
-    let rv: Vec<f64> = (0..n)
-        .map(|i| {
-            K_TRUE * (std::f64::consts::TAU * t[i] / P_TRUE).sin()
-                + activity[i]
-                + rng.sample::<f64, _>(StandardNormal)
-        })
-        .collect();
+    let mut set = injected(&mut rng, t, &activity, 0.0);
     let width: Vec<f64> = activity
         .iter()
         .map(|a| 50.0 + 0.4 * a + 0.5 * rng.sample::<f64, _>(StandardNormal))
         .collect();
-    let mut set = RvSet::from_columns(
-        "trained",
-        2_460_000.0,
-        t,
-        rv,
-        vec![1.0; n],
-        vec![0; n],
-        vec!["Sim".into()],
-    );
     set.indicators = vec![Indicator {
         name: "width".into(),
         values: width,
@@ -179,21 +285,11 @@ fn indicator_training_gives_priors_for_the_rv_fit() {
     assert!(priors[0].is_none(), "amplitudes are not transferred");
     let (lambda, sl) = priors[1].unwrap();
     let (p, sp) = priors[2].unwrap();
-    assert!((lambda - 25.0).abs() < 3.0 * sl, "{lambda} ± {sl}");
+    assert!((lambda - EVOLUTION_D).abs() < 3.0 * sl, "{lambda} ± {sl}");
     assert!((p - P_ROT).abs() < 3.0 * sp, "{p} ± {sp}");
-    let spec = PlanetSpec {
-        period_d: P_TRUE,
-        fix_period: false,
-        k_mps: 3.0,
-        tc_d: 0.0,
-        ecc_vector: (0.0, 0.0),
-        period_prior: None,
-        tc_prior: None,
-        label: "b".into(),
-    };
     let f = fit::fit(
         &set,
-        &[spec],
+        &[planet()],
         &FitOptions {
             activity_priors: priors,
             ..options.clone()
@@ -224,16 +320,6 @@ fn indicator_training_gives_priors_for_the_rv_fit() {
 #[test]
 fn sampler_draws_the_activity_hyperparameters() {
     let set = realisation(200);
-    let spec = PlanetSpec {
-        period_d: P_TRUE,
-        fix_period: false,
-        k_mps: 3.0,
-        tc_d: 0.0,
-        ecc_vector: (0.0, 0.0),
-        period_prior: None,
-        tc_prior: None,
-        label: "b".into(),
-    };
     let options = FitOptions {
         shape: OrbitShape::Circular,
         trend: 0,
@@ -241,7 +327,7 @@ fn sampler_draws_the_activity_hyperparameters() {
         rotation_d: Some(heft::gp::rotation_prior(P_ROT, 0.0)),
         ..FitOptions::default()
     };
-    let f = fit::fit(&set, &[spec], &options).unwrap();
+    let f = fit::fit(&set, &[planet()], &options).unwrap();
     let priors = PriorSet::defaults(&set, &f, (1.0, 160.0));
     let rotation = priors
         .entries
