@@ -294,6 +294,35 @@ pub fn indicator_column(set: &RvSet, name: &str) -> Result<usize, FitError> {
         })
 }
 
+/// Puts the activity-indicator columns `names` of `set` into `options`: with the joint
+/// model, the columns fitted together with the RVs; with any other, the one column the
+/// model is trained on first.
+///
+/// # Errors
+/// [`FitError::Start`] for a column the data lack, [`FitError::Options`] for several
+/// columns with a model other than the joint one.
+pub fn activity_columns(
+    options: &mut FitOptions,
+    set: &RvSet,
+    names: &[String],
+) -> Result<(), FitError> {
+    let columns = names
+        .iter()
+        .map(|n| indicator_column(set, n))
+        .collect::<Result<Vec<usize>, FitError>>()?;
+    if options.activity == Activity::Joint {
+        options.joint_indicators = columns;
+    } else if let [c] = columns.as_slice() {
+        options.activity_indicator = Some(*c);
+    } else if !columns.is_empty() {
+        return Err(FitError::Options(format!(
+            "{} activity-indicator columns given: only the joint activity model takes more than one",
+            columns.len()
+        )));
+    }
+    Ok(())
+}
+
 /// Search settings from a target file's settings and star (its rotation period centres
 /// the activity model's rotation prior).
 pub fn search_settings(s: &Settings, star: &Star) -> SearchSettings {
@@ -363,8 +392,8 @@ pub fn run_target_from(
     let (set, log) = prep::prepare(&raw, &preparation)?;
     prep::check_offset_priors(&set, &target.offset_priors)?;
     let mut search = search_settings(&target.settings, &target.star);
-    if let Some(name) = &target.settings.activity_indicator {
-        search.options.activity_indicator = Some(indicator_column(&set, name)?);
+    if let Some(columns) = &target.settings.activity_indicator {
+        activity_columns(&mut search.options, &set, &columns.names())?;
     }
     search.options.offset_priors = target.offset_priors.clone();
     if target.settings.indicator_terms != IndicatorTerms::None {

@@ -161,6 +161,26 @@ pub enum OrbitShape {
     Circular,
 }
 
+/// One indicator column name or a list of them.
+#[derive(Clone, Debug, PartialEq, Deserialize, serde::Serialize)]
+#[serde(untagged)]
+pub enum Columns {
+    /// One column.
+    One(String),
+    /// Several columns.
+    Several(Vec<String>),
+}
+
+impl Columns {
+    /// The column names.
+    pub fn names(&self) -> Vec<String> {
+        match self {
+            Columns::One(name) => vec![name.clone()],
+            Columns::Several(names) => names.clone(),
+        }
+    }
+}
+
 /// Analysis settings with stated defaults.
 #[derive(Clone, Debug, PartialEq, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields, default)]
@@ -215,12 +235,14 @@ pub struct Settings {
     /// Also sample the posterior of the baseline and of every model variant in the audit
     /// (default false: maximum likelihood; each posterior costs as much as the run's own).
     pub audit_posterior: bool,
-    /// Stellar-activity noise model: `none` (default), `quasiperiodic` or `oscillator`
-    /// (Gaussian processes; need `star.rotation_d`, which centres the rotation prior).
+    /// Stellar-activity noise model: `none` (default), `quasiperiodic`, `oscillator` or
+    /// `joint` (Gaussian processes; need `star.rotation_d`, which centres the rotation
+    /// prior).
     pub activity: crate::gp::Activity,
     /// Indicator column on which the activity model's hyperparameters are trained first
-    /// (their fit becomes Gaussian priors of the RV fit; default none).
-    pub activity_indicator: Option<String>,
+    /// (their fit becomes Gaussian priors of the RV fit); with `joint`, the column or
+    /// columns fitted together with the RVs (default none).
+    pub activity_indicator: Option<Columns>,
     /// Start `heft run` from the latest complete run's solution (default false: every run
     /// starts afresh, so identical inputs give identical results).
     pub warm_start: bool,

@@ -788,6 +788,71 @@ fn fit_with_an_activity_model() {
     );
 }
 
+/// `--activity joint` (design.md contract, Rajpaul et al. 2015): the RVs and the named
+/// indicator column fitted together; results.json names the model and the indicator and
+/// gives the latent hyperparameters, both series' couplings and the indicator's offset
+/// and jitter as estimates. Without an indicator column, or with several for another
+/// model, exit 2 naming the problem.
+#[test]
+fn fit_with_the_joint_activity_model() {
+    let data = repo("data-demo/quill.csv");
+    let args = |model: &'static str| {
+        vec![
+            "fit",
+            data.as_str(),
+            "--period",
+            "47.3",
+            "--planets",
+            "1",
+            "--circular",
+            "--rotation-d",
+            "6.4",
+            "--activity",
+            model,
+        ]
+    };
+    let mut ok = args("joint");
+    ok.extend(["--activity-indicator", "line_width", "--json"]);
+    let doc = json_of(&heft(&ok));
+    let act = &doc["activity"];
+    assert_eq!(act["model"], "joint");
+    assert_eq!(act["joint_indicators"], serde_json::json!(["line_width"]));
+    for key in [
+        "evolution_d",
+        "smoothness",
+        "rotation_d",
+        "coupling.rv.level_mps",
+        "coupling.rv.slope_mps_d",
+        "coupling.line_width.level",
+        "coupling.line_width.slope_d",
+        "indicator_offset.line_width.quill",
+        "indicator_jitter.line_width.quill",
+    ] {
+        assert!(is_estimate(&act["parameters"][key]), "{key}: {act}");
+    }
+    let out = heft(&args("joint"));
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        stderr(&out).contains("--activity-indicator"),
+        "{}",
+        stderr(&out)
+    );
+    let mut several = args("quasiperiodic");
+    several.extend([
+        "--activity-indicator",
+        "line_width",
+        "--activity-indicator",
+        "line_width",
+    ]);
+    let out = heft(&several);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        stderr(&out).contains("only the joint activity model takes more than one"),
+        "{}",
+        stderr(&out)
+    );
+}
+
 /// The audit compares K and mass with and without the activity GP: with a rotation period
 /// and no activity model, a quasi-periodic variant is fitted; with an activity model,
 /// a variant without it. Both carry the planet's K and mass.

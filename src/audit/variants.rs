@@ -17,7 +17,9 @@
 //! Cross-validation: the data, in time order, are cut into contiguous blocks; each block
 //! in turn is predicted by the model fitted to the others, and the log predictive density
 //! `Σ ln N(y | model, σ² + s²)` of the held-out points is summed (points of an instrument
-//! absent from the training part are skipped). One fewer, the same and one more signal are
+//! absent from the training part are skipped); with an activity GP the model adds the
+//! GP's conditional mean at each held-out point given the training residuals and the
+//! variance its conditional variance (Rasmussen & Williams 2006, eqs. 2.25–2.26). One fewer, the same and one more signal are
 //! compared; the standard error of a difference is `sqrt(n Var(Δ_i))` over the held-out
 //! points (as for the leave-one-out comparison of Vehtari, Gelman & Gabry 2017, Stat.
 //! Comput. 27, 1413). Unlike BIC it rests on out-of-sample prediction, not on a
@@ -434,21 +436,25 @@ pub fn cross_validate(refit: &Refitter, more: Option<&Fit>) -> Option<CrossValid
                     continue;
                 };
                 let p = &model.params;
+                // With an activity GP, each held-out point's prediction adds the GP's
+                // conditional mean and variance given the training residuals.
+                let activity = model.activity_prediction(&train_set, &set.time_d[lo..hi]);
                 for (j, out) in lpd.iter_mut().enumerate().take(hi).skip(lo) {
                     let k = set.instrument[j];
                     if !train_set.instrument.contains(&k) {
                         continue;
                     }
                     let t = set.time_d[j];
+                    let (gp_mean, gp_var) = activity
+                        .as_ref()
+                        .map_or((0.0, 0.0), |(m, v)| (m[j - lo], v[j - lo].max(0.0)));
                     let mean = p.planets_rv(t)
                         + p.offsets_mps[k]
                         + p.trend_rv(t)
-                        + p.regressors_rv(set, j);
-                    *out = point_log_likelihood(
-                        set.rv_mps[j] - mean,
-                        set.err_mps[j],
-                        p.jitters_mps[k],
-                    );
+                        + p.regressors_rv(set, j)
+                        + gp_mean;
+                    let spread = p.jitters_mps[k].hypot(gp_var.sqrt());
+                    *out = point_log_likelihood(set.rv_mps[j] - mean, set.err_mps[j], spread);
                 }
             }
             lpd

@@ -41,8 +41,9 @@ pub struct FitArgs {
     /// diagnostics; exit status 3 if it does not converge).
     #[arg(long)]
     sample: bool,
-    /// Stellar-activity noise model: none (white jitter only), quasiperiodic or
-    /// oscillator (Gaussian processes; need --rotation-d).
+    /// Stellar-activity noise model: none (white jitter only), quasiperiodic, oscillator
+    /// or joint (Gaussian processes; need --rotation-d; joint fits the RVs and the
+    /// --activity-indicator columns as one latent process and its derivative).
     #[arg(long, default_value = "none")]
     activity: Activity,
     /// Stellar rotation period, days: centres the activity model's rotation-period prior
@@ -50,9 +51,10 @@ pub struct FitArgs {
     #[arg(long)]
     rotation_d: Option<f64>,
     /// Train the activity model on this indicator column first (its hyperparameters
-    /// become priors of the RV fit).
+    /// become priors of the RV fit); with --activity joint, a column fitted together
+    /// with the RVs (repeat for several).
     #[arg(long, value_name = "COLUMN")]
-    activity_indicator: Option<String>,
+    activity_indicator: Vec<String>,
     /// 1σ uncertainty of the rotation period, days (default for the prior: 10 % of it).
     #[arg(long, requires = "rotation_d")]
     rotation_err_d: Option<f64>,
@@ -144,16 +146,23 @@ impl FitArgs {
         };
         let rotation = self.rotation()?;
         let set = self.input.load()?;
-        if self.activity_indicator.is_some() && self.activity == Activity::None {
+        if !self.activity_indicator.is_empty() && self.activity == Activity::None {
             return Err(Failure::Input(anyhow::anyhow!(
-                "--activity-indicator needs an activity model: --activity quasiperiodic|oscillator"
+                "--activity-indicator needs an activity model: --activity quasiperiodic|oscillator|joint"
             )));
         }
-        let activity_indicator = self
-            .activity_indicator
-            .as_deref()
-            .map(|name| pipeline::indicator_column(&set, name))
-            .transpose()
+        let mut options = FitOptions {
+            shape: if self.circular {
+                OrbitShape::Circular
+            } else {
+                OrbitShape::Eccentric
+            },
+            trend: usize::from(self.trend),
+            activity: self.activity,
+            rotation_d: rotation.map(|(p, e)| rotation_prior(p, e)),
+            ..FitOptions::default()
+        };
+        pipeline::activity_columns(&mut options, &set, &self.activity_indicator)
             .map_err(|e| Failure::Input(e.into()))?;
         let log = DataLog::new(set.len());
         Ok(Request {
@@ -175,18 +184,7 @@ impl FitArgs {
                 oversample: defaults.oversample,
                 fap_threshold: defaults.fap_threshold,
                 count,
-                options: FitOptions {
-                    shape: if self.circular {
-                        OrbitShape::Circular
-                    } else {
-                        OrbitShape::Eccentric
-                    },
-                    trend: usize::from(self.trend),
-                    activity: self.activity,
-                    rotation_d: rotation.map(|(p, e)| rotation_prior(p, e)),
-                    activity_indicator,
-                    ..FitOptions::default()
-                },
+                options,
             },
             seed: self.seed,
             draws: defaults.draws,

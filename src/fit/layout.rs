@@ -5,12 +5,14 @@
 //! Per planet θ holds `P` (unless held fixed), `K`, `e cos ω`, `e sin ω` (eccentric
 //! orbits only) and `Tc`; then one offset per instrument; one jitter per instrument (or one
 //! shared by all); the trend coefficients; and the coefficients of any activity-indicator
-//! regressors; and, with a stellar-activity GP, the natural logarithm of each of its
-//! hyperparameters ([`crate::gp::Activity::keys`]). `(e cos ω, e sin ω)` is smooth through
+//! regressors; with the joint activity model, its couplings and indicator offsets and
+//! jitters ([`JointLayout`]); and, with a stellar-activity GP, the natural logarithm of
+//! each of its hyperparameters ([`crate::gp::Activity::keys`]). `(e cos ω, e sin ω)` is smooth through
 //! e = 0, where ω is undefined.
 
+use super::joint::{JointLayout, Stack};
 use crate::data::RvSet;
-use crate::gp::{ActivityLayout, Kernel, Points, Solver};
+use crate::gp::{ActivityLayout, Factor, JointKernel, Kernel, Points, Solver};
 use crate::model::{Noise, Params};
 use crate::orbit::Orbit;
 use crate::periodogram::Sinusoid;
@@ -89,6 +91,8 @@ pub struct Layout {
     pub offset_priors: Vec<(usize, usize, f64, f64)>,
     /// The stellar-activity GP, if any.
     pub activity: Option<ActivityLayout>,
+    /// The joint model's block (with [`crate::gp::Activity::Joint`]).
+    pub joint: Option<JointLayout>,
     /// Index in θ of each planet's first parameter.
     planet_start: Vec<usize>,
     /// Index of the first offset.
@@ -118,6 +122,8 @@ pub enum Role {
     Regressor(usize),
     /// Natural logarithm of activity hyperparameter `q` ([`crate::gp::Activity::keys`]).
     Activity(usize),
+    /// Entry `q` of the joint model's block ([`JointLayout`]).
+    Joint(usize),
 }
 
 impl Layout {
@@ -146,6 +152,7 @@ impl Layout {
             noise: Noise::Gaussian,
             offset_priors: Vec::new(),
             activity: None,
+            joint: None,
             planet_start,
             offsets_start: at,
         }
@@ -183,6 +190,20 @@ impl Layout {
             activity: Some(activity),
             ..self
         }
+    }
+
+    /// The same layout with the joint model's block (its activity layout is
+    /// [`crate::gp::Activity::Joint`]).
+    pub fn with_joint(self, joint: JointLayout) -> Layout {
+        Layout {
+            joint: Some(joint),
+            ..self
+        }
+    }
+
+    /// Number of entries of the joint model's block.
+    pub fn n_joint(&self) -> usize {
+        self.joint.as_ref().map_or(0, JointLayout::len)
     }
 
     /// Number of indicator coefficients.
@@ -279,6 +300,7 @@ impl Layout {
             + self.n_jitters()
             + self.trend
             + self.n_regressors()
+            + self.n_joint()
             + self.n_activity()
     }
 
@@ -305,6 +327,7 @@ impl Layout {
         roles.extend((0..self.n_jitters()).map(Role::Jitter));
         roles.extend((1..=self.trend).map(Role::Trend));
         roles.extend((0..self.n_regressors()).map(Role::Regressor));
+        roles.extend((0..self.n_joint()).map(Role::Joint));
         roles.extend((0..self.n_activity()).map(Role::Activity));
         roles
     }
@@ -352,8 +375,41 @@ impl Layout {
 
     /// Indicator coefficients from θ.
     pub fn regressor_coefficients<'t>(&self, theta: &'t [f64]) -> &'t [f64] {
-        let end = theta.len() - self.n_activity();
+        let end = theta.len() - self.n_activity() - self.n_joint();
         &theta[end - self.n_regressors()..end]
+    }
+
+    /// Index range in θ of the joint model's block (empty without it).
+    pub fn joint_range(&self) -> std::ops::Range<usize> {
+        let end = self.len() - self.n_activity();
+        end - self.n_joint()..end
+    }
+
+    /// The joint model's block of θ (empty without it).
+    pub fn joint_block<'t>(&self, theta: &'t [f64]) -> &'t [f64] {
+        &theta[self.joint_range()]
+    }
+
+    /// Log-likelihood of the RVs alone at θ: [`Layout::log_likelihood`], except that with
+    /// the joint model it is that of the RVs conditional on the indicators,
+    /// `ln p(RV, I) − ln p(I)`, which compares with the RV likelihood of any other model.
+    pub fn rv_log_likelihood(&self, theta: &[f64], max_ecc: f64, set: &RvSet) -> f64 {
+        let all = self.log_likelihood(theta, max_ecc, set);
+        let Some(params) = self.params(theta, max_ecc) else {
+            return all;
+        };
+        let Some(Ok((kernel, stack))) = self.joint_problem(theta, &params, set) else {
+            return all;
+        };
+        let n = set.len();
+        let indicators = crate::gp::JointPoints {
+            time_d: &stack.time_d[n..],
+            series: &stack.series[n..],
+            white: &stack.white[n..],
+        };
+        indicators
+            .log_likelihood(&kernel, &stack.residual[n..])
+            .map_or(f64::NEG_INFINITY, |l| all - l)
     }
 
     /// Activity hyperparameters from θ in physical units (empty without a GP).
@@ -372,15 +428,48 @@ impl Layout {
             .and_then(|a| a.model.kernel(&a.clamp(&self.activity_values(theta))))
     }
 
+    /// The joint model's kernel and stacked problem at θ (hyperparameters moved into
+    /// their bounds); `None` without the joint model, `Some(Err)` for an invalid kernel.
+    pub fn joint_problem(
+        &self,
+        theta: &[f64],
+        params: &Params,
+        set: &RvSet,
+    ) -> Option<Result<(JointKernel, Stack), crate::gp::GpError>> {
+        let (joint, a) = (self.joint.as_ref()?, self.activity.as_ref()?);
+        let latent = a.model.latent(&a.clamp(&self.activity_values(theta)))?;
+        let block = self.joint_block(theta);
+        Some(joint.kernel(block, latent).map(|kernel| {
+            let white = white_variances(params, set);
+            (kernel, joint.stack(block, params, white, set))
+        }))
+    }
+
+    /// The factorised stacked covariance and the residuals of the joint model at θ.
+    pub fn joint_factor(
+        &self,
+        theta: &[f64],
+        params: &Params,
+        set: &RvSet,
+    ) -> Option<(Factor, Stack)> {
+        let (kernel, stack) = self.joint_problem(theta, params, set)?.ok()?;
+        let factor = stack.points().factor(&kernel, &stack.residual).ok()?;
+        Some((factor, stack))
+    }
+
     /// Log-likelihood of `set` at θ: Gaussian with white errors and jitters, or with
     /// the activity GP added to their covariance ([`Points::log_likelihood`]; the
-    /// semiseparable solver when the kernel allows). −∞ for invalid θ or a covariance
-    /// that is not positive definite.
+    /// semiseparable solver when the kernel allows), or with the joint model that of the
+    /// RVs and indicators together. −∞ for invalid θ or a covariance that is not positive
+    /// definite.
     pub fn log_likelihood(&self, theta: &[f64], max_ecc: f64, set: &RvSet) -> f64 {
         let Some(params) = self.params(theta, max_ecc) else {
             return f64::NEG_INFINITY;
         };
         let l = match self.kernel(theta) {
+            None if self.joint.is_some() => self
+                .joint_factor(theta, &params, set)
+                .map_or(f64::NEG_INFINITY, |(f, s)| f.log_likelihood(&s.residual)),
             None => params.log_likelihood(set),
             Some(kernel) => {
                 let white = white_variances(&params, set);
@@ -462,6 +551,9 @@ impl Layout {
         }
         theta.extend((0..self.trend).map(|k| trend.get(k).copied().unwrap_or(0.0)));
         theta.extend(std::iter::repeat_n(0.0, self.n_regressors()));
+        if let Some(j) = &self.joint {
+            theta.extend_from_slice(&j.start);
+        }
         if let Some(a) = &self.activity {
             theta.extend(a.start.iter().map(|x| x.ln()));
         }
@@ -486,6 +578,7 @@ impl Layout {
                 Role::Trend(k) => sigma / years.powi(k as i32),
                 Role::Regressor(j) => sigma / set.indicator_spread(self.regressor_target(j).0),
                 Role::Activity(_) => 0.1,
+                Role::Joint(q) => self.joint.as_ref().map_or(1.0, |b| b.scale[q]),
             })
             .collect()
     }
@@ -518,6 +611,10 @@ impl Layout {
                     }
                 },
                 Role::Activity(q) => format!("ln_activity.{}", self.activity_keys()[q]),
+                Role::Joint(q) => self
+                    .joint
+                    .as_ref()
+                    .map_or_else(String::new, |b| b.names[q].clone()),
             })
             .collect()
     }

@@ -5,6 +5,7 @@
 //! Entry points: [`fit`] for a given set of planets, [`search`] to find them.
 
 mod aliases;
+mod joint;
 mod layout;
 mod objective;
 mod optimize;
@@ -12,6 +13,7 @@ mod search;
 mod significance;
 
 pub use aliases::{AliasRefit, alias_refits};
+pub use joint::{JointEntry, JointLayout, Stack, TOKEN_ERROR_FRACTION};
 pub use layout::{Layout, OffsetPrior, PlanetSpec, Role};
 pub use search::{
     Search, SearchSettings, SearchStep, SignalCount, next_label, search, search_warm,
@@ -96,6 +98,9 @@ pub struct FitOptions {
     /// Gaussian priors `(mean, sd)` on the activity hyperparameters ([`Activity::keys`]
     /// order, physical units) from that training; `None` entries are free.
     pub activity_priors: [Option<(f64, f64)>; 4],
+    /// Indicator columns fitted together with the RVs by the joint model
+    /// ([`Activity::Joint`], which needs at least one; ignored by the other models).
+    pub joint_indicators: Vec<usize>,
 }
 
 impl Default for FitOptions {
@@ -113,6 +118,7 @@ impl Default for FitOptions {
             rotation_d: None,
             activity_indicator: None,
             activity_priors: [None; 4],
+            joint_indicators: Vec::new(),
         }
     }
 }
@@ -172,7 +178,8 @@ pub struct Fit {
     pub covariance: DMatrix<f64>,
     /// Reference epoch of the data (full BJD_TDB).
     pub epoch_bjd: f64,
-    /// ln L at the optimum (likelihood only, no constraints).
+    /// ln L of the RVs at the optimum (likelihood only, no constraints; with the joint
+    /// model conditional on the indicators, [`Layout::rv_log_likelihood`]).
     pub log_likelihood: f64,
     /// Number of points fitted.
     pub n_points: usize,
@@ -248,6 +255,16 @@ impl Fit {
     /// (days from the epoch), given the residuals of this fit's mean model on `set`;
     /// `None` without a GP or when its covariance cannot be factorised.
     pub fn activity_prediction(&self, set: &RvSet, at_d: &[f64]) -> Option<(Vec<f64>, Vec<f64>)> {
+        if self.layout.joint.is_some() {
+            let (kernel, stack) = self
+                .layout
+                .joint_problem(&self.theta, &self.params, set)?
+                .ok()?;
+            return stack
+                .points()
+                .predict(&kernel, &stack.residual, at_d, &vec![0; at_d.len()])
+                .ok();
+        }
         let kernel = self.layout.kernel(&self.theta)?;
         let white = layout::white_variances(&self.params, set);
         let scale = vec![1.0; set.len()];
@@ -366,6 +383,9 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
             )
             .with_trained(&options.activity_priors),
         );
+        if options.activity == Activity::Joint {
+            layout = layout.with_joint(joint_layout(set, options, rotation.0)?);
+        }
     }
     if layout.len() >= set.len() {
         return Err(FitError::TooFewPoints {
@@ -417,6 +437,9 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         (theta, value) = optimize::minimise(&objective, &theta, &scale, 4);
         n_starts += 1;
     }
+    if let Some(joint) = &layout.joint {
+        joint.canonical(&mut theta[layout.joint_range()]);
+    }
     if !value.is_finite() {
         return Err(FitError::NoFiniteLikelihood);
     }
@@ -462,6 +485,11 @@ pub fn train_activity(
     let Some(c) = options.activity_indicator else {
         return Ok(priors);
     };
+    if options.activity == Activity::Joint {
+        return Err(FitError::Options(
+            "the joint activity model fits its indicators together with the RVs; it is not trained on one first".into(),
+        ));
+    }
     if c >= set.indicators.len() {
         return Err(FitError::Start(format!(
             "activity indicator column {c}: the data have {} indicator columns",
@@ -471,7 +499,7 @@ pub fn train_activity(
     // The indicators carry no uncertainties: a token error of 5 % of the spread (a
     // floor of 0.25 % of the variance; the jitters, which start there, take the white
     // scatter; much smaller starts leave the covariance too ill-conditioned to move).
-    let series = set.indicator_series(c, 0.05 * set.indicator_spread(c));
+    let series = set.indicator_series(c, TOKEN_ERROR_FRACTION * set.indicator_spread(c));
     let trained = fit(
         &series,
         &[],
@@ -502,6 +530,30 @@ pub fn train_activity(
         }
     }
     Ok(priors)
+}
+
+/// The joint model's block for `set` under `options` (rotation period `rotation_d`).
+///
+/// # Errors
+/// [`FitError::Options`] without an indicator column or with one the data lack.
+fn joint_layout(
+    set: &RvSet,
+    options: &FitOptions,
+    rotation_d: f64,
+) -> Result<JointLayout, FitError> {
+    let columns = &options.joint_indicators;
+    if columns.is_empty() {
+        return Err(FitError::Options(
+            "the joint activity model needs at least one activity-indicator column: give --activity-indicator or settings.activity_indicator".into(),
+        ));
+    }
+    if let Some(c) = columns.iter().find(|&&c| c >= set.indicators.len()) {
+        return Err(FitError::Options(format!(
+            "joint activity model: indicator column {c}, but the data have {} indicator columns",
+            set.indicators.len()
+        )));
+    }
+    Ok(JointLayout::new(set, columns, centred_sd(set), rotation_d))
 }
 
 /// Largest 1σ error of a trained hyperparameter's logarithm (ln 2: the indicator pins it
@@ -603,7 +655,7 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
     let params = layout
         .params(&theta, options.max_ecc)
         .expect("the optimum has finite parameters");
-    let log_likelihood = layout.log_likelihood(&theta, options.max_ecc, set);
+    let log_likelihood = layout.rv_log_likelihood(&theta, options.max_ecc, set);
     let sigma_of = |q: &dyn Fn(&[f64]) -> f64| -> f64 {
         let g = objective::gradient(q, &theta, &h);
         let g = DVector::from_vec(g);
@@ -724,9 +776,15 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
             };
             (key.to_string(), summary)
         })
+        .chain(layout.joint.iter().flat_map(|b| {
+            layout.joint_range().zip(&b.names).map(|(j, name)| {
+                let sd = covariance[(j, j)].max(0.0).sqrt();
+                (name.clone(), Summary::symmetric(theta[j], sd))
+            })
+        }))
         .collect::<Vec<_>>();
     if let Some(a) = &layout.activity {
-        for (q, (key, s)) in activity.iter().enumerate() {
+        for (q, (key, s)) in activity.iter().enumerate().take(a.bounds.len()) {
             if a.at_bound(q, s.value) {
                 warnings.push(format!(
                     "activity {key} = {} is at its bound {:?}: the data do not constrain it there and its error is the bound's",

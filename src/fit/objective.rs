@@ -4,6 +4,7 @@
 
 use crate::data::RvSet;
 
+use super::joint::JointEntry;
 use super::layout::{Layout, Role, white_variances};
 use crate::gp::{Factor, Points, Solver, Term};
 use crate::model::DAYS_PER_YEAR;
@@ -58,7 +59,9 @@ impl Objective<'_> {
     /// parameter. With an activity GP, `∂f/∂m_i = −(K⁻¹r)_i` (Rasmussen & Williams 2006,
     /// eq. 5.9 with ∂K/∂m = 0); the jitters and hyperparameters are analytic for the
     /// quasi-periodic kernel ([`dense_gradient`]) and take central differences of the
-    /// whole objective otherwise. Zeros for invalid θ.
+    /// whole objective otherwise. With the joint model α and `W` are those of the stacked
+    /// RV and indicator residuals (RV points first, [`crate::gp::JointPoints::gradient`]):
+    /// all analytic. Zeros for invalid θ.
     pub fn gradient(&self, theta: &[f64], steps: &[f64]) -> Vec<f64> {
         let (layout, set) = (self.layout, self.set);
         let mut grad = vec![0.0; theta.len()];
@@ -92,7 +95,25 @@ impl Objective<'_> {
             residuals[i] = r;
         }
         let kernel = layout.kernel(theta);
+        let gp = kernel.is_some() || layout.joint.is_some();
         let mut hyper: Option<Vec<f64>> = None;
+        let mut joint = None;
+        if layout.joint.is_some() {
+            let Some(Ok((kernel, stack))) = layout.joint_problem(theta, &params, set) else {
+                return grad;
+            };
+            let Ok(g) = stack.points().gradient(&kernel, &stack.residual) else {
+                return grad;
+            };
+            dfds.iter_mut().for_each(|d| *d = 0.0);
+            for i in 0..n {
+                dfdm[i] = -g.alpha[i];
+                dfds[set.instrument[i]] += g.w_diag[i];
+            }
+            hyper = Some(self.hyper_gradient(theta, &g.latent));
+            joint = Some(g);
+        }
+        let white_known = joint.is_some();
         if let Some(kernel) = &kernel {
             let white = white_variances(&params, set);
             let scale = vec![1.0; n];
@@ -116,9 +137,10 @@ impl Objective<'_> {
                 for (i, w) in w_diag.iter().enumerate() {
                     dfds[set.instrument[i]] += w;
                 }
-                hyper = Some(self.hyper_gradient(theta, g));
+                hyper = Some(self.hyper_gradient(theta, &g));
             }
         }
+        let white_known = white_known || hyper.is_some();
         // Central differences with steps 100 × the forward ones (closer to the
         // cube root of the rounding error, in scaled units).
         let by_difference = |j: usize| {
@@ -136,9 +158,23 @@ impl Objective<'_> {
                     .map(|i| dfdm[i])
                     .sum(),
                 Role::Activity(q) if hyper.is_some() => hyper.as_ref().map_or(0.0, |h| h[q]),
-                Role::Jitter(_) | Role::Activity(_) if kernel.is_some() && hyper.is_none() => {
-                    by_difference(j)
+                Role::Joint(q) => {
+                    let (b, g) = (
+                        layout.joint.as_ref().expect("joint roles have the model"),
+                        joint.as_ref().expect("computed with the model"),
+                    );
+                    match b.entry(q) {
+                        JointEntry::Coupling(c) => g.couplings[c],
+                        JointEntry::Offset(h) => {
+                            -g.alpha[b.group_points(set, h)].iter().sum::<f64>()
+                        }
+                        JointEntry::Jitter(h) => {
+                            theta[j] * g.w_diag[b.group_points(set, h)].iter().sum::<f64>()
+                        }
+                    }
                 }
+                Role::Activity(_) => by_difference(j),
+                Role::Jitter(_) if gp && !white_known => by_difference(j),
                 Role::Jitter(g) => {
                     theta[j]
                         * (0..set.n_instruments())
@@ -203,7 +239,7 @@ impl Objective<'_> {
     /// Gradient in the activity hyperparameters' logarithms: the likelihood part `g`
     /// ([`dense_gradient`], zero for a value outside its bounds, where the model uses the
     /// bound) plus central differences of the bounds' walls and the priors.
-    fn hyper_gradient(&self, theta: &[f64], g: [f64; 4]) -> Vec<f64> {
+    fn hyper_gradient(&self, theta: &[f64], g: &[f64]) -> Vec<f64> {
         let a = self
             .layout
             .activity
@@ -238,7 +274,7 @@ fn dense_gradient(
     term: &Term,
     t: &[f64],
 ) -> (Vec<f64>, [f64; 4]) {
-    let kinv = chol.inverse();
+    let kinv = crate::gp::spd_inverse(chol);
     let at_zero = term.log_gradient(0.0).expect("a quasi-periodic term");
     let mut g = [0.0; 4];
     let mut diag = Vec::with_capacity(t.len());
@@ -378,14 +414,32 @@ mod tests {
             .with_regressors_per_instrument(true);
         let activity = ActivityLayout::new(Activity::QuasiPeriodic, (12.0, 1.0), 4.0, 200.0);
         let with_gp = base.clone().with_activity(activity);
-        for layout in [base, robust, with_gp] {
+        // The joint model of the RVs and the indicator (Rajpaul et al. 2015): analytic
+        // couplings, indicator offsets and jitters, the others by differences.
+        let joint = base
+            .clone()
+            .with_activity(ActivityLayout::new(
+                Activity::Joint,
+                (12.0, 1.0),
+                4.0,
+                200.0,
+            ))
+            .with_joint(crate::fit::JointLayout::new(&set, &[0], 4.0, 12.0));
+        for layout in [base, robust, with_gp, joint] {
             let mut theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
             let m = theta.len();
             if layout.n_regressors() == 2 {
                 theta[m - 2..].copy_from_slice(&[0.8, -1.3]);
             }
             if layout.activity.is_some() {
-                theta[m - 2] = 12.6_f64.ln();
+                theta[m - layout.n_activity() + Activity::ROTATION] = 12.6_f64.ln();
+            }
+            let b = layout.joint_range();
+            if !b.is_empty() {
+                // Slopes, the indicator's offsets and jitters away from their starts.
+                for (q, v) in [(1, 2.0), (3, -1.5), (4, 0.2), (5, -0.1), (6, 0.3)] {
+                    theta[b.start + q] += v;
+                }
             }
             let obj = Objective {
                 set: &set,

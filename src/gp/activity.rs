@@ -19,19 +19,45 @@ pub enum Activity {
     /// it, with one quality factor; hyperparameters `amplitude_mps` (at the rotation
     /// period), `amplitude_half_mps` (at half of it), `rotation_d`, `quality`.
     Oscillator,
+    /// RV and activity indicators fitted together as combinations of one latent
+    /// quasi-periodic process and its time derivative (Rajpaul et al. 2015;
+    /// [`super::JointKernel`]); hyperparameters of the latent process (unit amplitude)
+    /// `evolution_d`, `smoothness`, `rotation_d`; each series' coupling is fitted beside
+    /// them.
+    Joint,
+}
+
+impl Activity {
+    /// Every model, in the order they are offered.
+    pub const ALL: [Activity; 4] = [
+        Activity::None,
+        Activity::QuasiPeriodic,
+        Activity::Oscillator,
+        Activity::Joint,
+    ];
+
+    /// The model's name on the command line and in target files.
+    pub fn name(self) -> &'static str {
+        match self {
+            Activity::None => "none",
+            Activity::QuasiPeriodic => "quasiperiodic",
+            Activity::Oscillator => "oscillator",
+            Activity::Joint => "joint",
+        }
+    }
 }
 
 impl std::str::FromStr for Activity {
     type Err = String;
     fn from_str(s: &str) -> Result<Activity, String> {
-        match s {
-            "none" => Ok(Activity::None),
-            "quasiperiodic" => Ok(Activity::QuasiPeriodic),
-            "oscillator" => Ok(Activity::Oscillator),
-            _ => Err(format!(
-                "unknown activity model `{s}`: use none, quasiperiodic or oscillator"
-            )),
-        }
+        Activity::ALL
+            .into_iter()
+            .find(|a| a.name() == s)
+            .ok_or_else(|| {
+                format!(
+                    "unknown activity model `{s}`: use none, quasiperiodic, oscillator or joint"
+                )
+            })
     }
 }
 
@@ -49,6 +75,7 @@ impl Activity {
                 "rotation_d",
                 "quality",
             ],
+            Activity::Joint => &["evolution_d", "smoothness", "rotation_d"],
         }
     }
 
@@ -56,7 +83,7 @@ impl Activity {
     pub const ROTATION: usize = 2;
 
     /// The kernel of hyperparameters `values` (physical units, in [`Activity::keys`]
-    /// order); `None` for the white model.
+    /// order); `None` for the white model and the joint model (see [`Activity::latent`]).
     pub fn kernel(self, values: &[f64]) -> Option<Kernel> {
         let terms = match (self, values) {
             (Activity::QuasiPeriodic, &[h, l, p, w]) => vec![Term::QuasiPeriodic {
@@ -80,6 +107,20 @@ impl Activity {
             _ => return None,
         };
         Some(Kernel { terms })
+    }
+
+    /// The joint model's latent quasi-periodic term (unit amplitude) of hyperparameters
+    /// `values` ([`Activity::keys`] order); `None` for the other models.
+    pub fn latent(self, values: &[f64]) -> Option<Term> {
+        match (self, values) {
+            (Activity::Joint, &[l, w, p]) => Some(Term::QuasiPeriodic {
+                amplitude_mps: 1.0,
+                evolution_d: l,
+                period_d: p,
+                smoothness: w,
+            }),
+            _ => None,
+        }
     }
 }
 
@@ -171,6 +212,14 @@ impl ActivityLayout {
             Activity::Oscillator => (
                 vec![amp, amp, per, (0.55, 1000.0)],
                 vec![amp_start, 0.5 * amp_start, p, 5.0],
+            ),
+            Activity::Joint => (
+                vec![
+                    (0.5 * p, (10.0 * baseline_d).max(5.0 * p)),
+                    (0.1, 10.0),
+                    per,
+                ],
+                vec![2.0 * p, 0.5, p],
             ),
         };
         let trained = vec![None; start.len()];

@@ -75,14 +75,107 @@ impl JointKernel {
     /// # Panics
     /// If `x` or `y` is not a series of this model.
     pub fn covariance(&self, x: usize, y: usize, tau_d: f64) -> f64 {
-        let [k, d1, d2] = self
-            .latent
+        self.combine(x, y, self.latent_at(tau_d))
+    }
+
+    /// `[k, k′, k″]` of the latent term at lag `tau_d` (days).
+    fn latent_at(&self, tau_d: f64) -> [f64; 3] {
+        self.latent
             .lag_derivatives(tau_d)
-            .expect("checked in JointKernel::new");
+            .expect("checked in JointKernel::new")
+    }
+
+    /// `cov(X, Y)` of series `x` and `y` from the latent `[k, k′, k″]` at their lag.
+    fn combine(&self, x: usize, y: usize, [k, d1, d2]: [f64; 3]) -> f64 {
         let (cx, cy) = (self.series[x], self.series[y]);
         cx.level * cy.level * k + (cx.slope * cy.level - cx.level * cy.slope) * d1
             - cx.slope * cy.slope * d2
     }
+}
+
+/// The latent term's `[k, k′, k″]` between every two distinct times of a set of points,
+/// computed once per pair of epochs however many series share them.
+struct LagTable {
+    /// Index of each point's time among the distinct times.
+    index: Vec<usize>,
+    /// Number of distinct times.
+    m: usize,
+    /// `[k, k′, k″]` at lag `tᵤ − tᵥ` at `u * m + v`.
+    values: Vec<[f64; 3]>,
+    /// With [`LagTable::with_gradients`], their derivatives with respect to ln λ, ln w and
+    /// ln P ([`Term::lag_derivative_gradients`]), at the same places.
+    gradients: Vec<[[f64; 3]; 3]>,
+}
+
+impl LagTable {
+    fn new(kernel: &JointKernel, time_d: &[f64]) -> LagTable {
+        let mut distinct = time_d.to_vec();
+        distinct.sort_by(f64::total_cmp);
+        distinct.dedup_by(|a, b| a.total_cmp(b).is_eq());
+        let index = time_d
+            .iter()
+            .map(|t| {
+                distinct
+                    .binary_search_by(|d| d.total_cmp(t))
+                    .expect("every time is among the distinct ones")
+            })
+            .collect();
+        let m = distinct.len();
+        let mut values = vec![[0.0; 3]; m * m];
+        for u in 0..m {
+            for v in 0..=u {
+                let [k, d1, d2] = kernel.latent_at(distinct[u] - distinct[v]);
+                values[u * m + v] = [k, d1, d2];
+                // k and k″ are even in the lag, k′ odd.
+                values[v * m + u] = [k, -d1, d2];
+            }
+        }
+        LagTable {
+            index,
+            m,
+            values,
+            gradients: Vec::new(),
+        }
+    }
+
+    /// The same table with the hyperparameter derivatives of every entry.
+    fn with_gradients(mut self, kernel: &JointKernel, time_d: &[f64]) -> LagTable {
+        let m = self.m;
+        let mut distinct = vec![0.0; m];
+        for (i, &u) in self.index.iter().enumerate() {
+            distinct[u] = time_d[i];
+        }
+        self.gradients = vec![[[0.0; 3]; 3]; m * m];
+        for u in 0..m {
+            for v in 0..=u {
+                let g = kernel
+                    .latent
+                    .lag_derivative_gradients(distinct[u] - distinct[v])
+                    .expect("checked in JointKernel::new");
+                self.gradients[u * m + v] = g;
+                self.gradients[v * m + u] = g.map(|[k, d1, d2]| [k, -d1, d2]);
+            }
+        }
+        self
+    }
+
+    /// `[k, k′, k″]` at the lag between points `i` and `j` (`tᵢ − tⱼ`).
+    fn at(&self, i: usize, j: usize) -> [f64; 3] {
+        self.values[self.index[i] * self.m + self.index[j]]
+    }
+}
+
+/// The likelihood gradient pieces of a joint problem ([`JointPoints::gradient`]).
+#[derive(Clone, Debug, PartialEq)]
+pub struct JointGradient {
+    /// `α = K⁻¹r`, in the inverse of each point's unit.
+    pub alpha: Vec<f64>,
+    /// `∂(−ln L)/∂` each coupling, `[a₀, b₀, a₁, b₁, …]`.
+    pub couplings: Vec<f64>,
+    /// `∂(−ln L)/∂` ln λ, ln w and ln P of the latent term.
+    pub latent: [f64; 3],
+    /// Diagonal of `W = K⁻¹ − ααᵀ`; `∂(−ln L)/∂(white variance of point i) = ½ W_ii`.
+    pub w_diag: Vec<f64>,
 }
 
 /// The points of a joint problem, in any order: each one's time, series and white variance.
@@ -112,13 +205,17 @@ impl JointPoints<'_> {
     /// # Panics
     /// If a point's series is not one of the kernel's.
     pub fn covariance(&self, kernel: &JointKernel) -> DMatrix<f64> {
-        let (t, s) = (self.time_d, self.series);
-        let n = t.len();
+        self.covariance_with(kernel, &LagTable::new(kernel, self.time_d))
+    }
+
+    fn covariance_with(&self, kernel: &JointKernel, table: &LagTable) -> DMatrix<f64> {
+        let s = self.series;
+        let n = s.len();
         let mut k = DMatrix::zeros(n, n);
         for j in 0..n {
-            k[(j, j)] = self.white[j] + kernel.covariance(s[j], s[j], 0.0);
+            k[(j, j)] = self.white[j] + kernel.combine(s[j], s[j], table.at(j, j));
             for i in j + 1..n {
-                let v = kernel.covariance(s[i], s[j], t[i] - t[j]);
+                let v = kernel.combine(s[i], s[j], table.at(i, j));
                 k[(i, j)] = v;
                 k[(j, i)] = v;
             }
@@ -126,7 +223,60 @@ impl JointPoints<'_> {
         k
     }
 
-    fn factor(&self, kernel: &JointKernel, r: &[f64]) -> Result<Factor, GpError> {
+    /// Gradient of `−ln L` of the stacked residuals `r` with respect to every coupling,
+    /// `[a₀, b₀, a₁, b₁, …]`, and the latent term's ln λ, ln w, ln P, and the diagonal of `W = K⁻¹ − ααᵀ` (α = K⁻¹r), with which
+    /// `∂(−ln L)/∂K_ii = ½ W_ii` gives the white variances' derivatives
+    /// (`∂(−ln L)/∂θ = ½ tr(W ∂K/∂θ)`, Rasmussen & Williams 2006, eq. 5.9). From
+    /// `cov(X, Y) = a_X a_Y k + (b_X a_Y − a_X b_Y) k′ − b_X b_Y k″`:
+    /// `∂cov/∂a_X = a_Y k − b_Y k′` and `∂cov/∂b_X = a_Y k′ − b_Y k″` on the `X` side, and
+    /// `∂cov/∂a_Y = a_X k + b_X k′`, `∂cov/∂b_Y = −a_X k′ − b_X k″` on the `Y` side.
+    ///
+    /// # Errors
+    /// As [`JointPoints::log_likelihood`].
+    pub fn gradient(&self, kernel: &JointKernel, r: &[f64]) -> Result<JointGradient, GpError> {
+        self.check(kernel, r)?;
+        let table = LagTable::new(kernel, self.time_d).with_gradients(kernel, self.time_d);
+        let chol = Cholesky::new(self.covariance_with(kernel, &table))
+            .ok_or(GpError::NotPositiveDefinite)?;
+        let alpha = chol.solve(&nalgebra::DVector::from_column_slice(r));
+        let kinv = crate::gp::spd_inverse(&chol);
+        let s = self.series;
+        let c = &kernel.series;
+        let mut grad = vec![0.0; 2 * c.len()];
+        let mut latent = [0.0; 3];
+        let mut diag = Vec::with_capacity(s.len());
+        for i in 0..s.len() {
+            for j in 0..s.len() {
+                let w = 0.5 * (kinv[(i, j)] - alpha[i] * alpha[j]);
+                if i == j {
+                    diag.push(2.0 * w);
+                }
+                let [k, d1, d2] = table.at(i, j);
+                let (x, y) = (s[i], s[j]);
+                grad[2 * x] += w * (c[y].level * k - c[y].slope * d1);
+                grad[2 * x + 1] += w * (c[y].level * d1 - c[y].slope * d2);
+                grad[2 * y] += w * (c[x].level * k + c[x].slope * d1);
+                grad[2 * y + 1] -= w * (c[x].level * d1 + c[x].slope * d2);
+                let g = table.gradients[table.index[i] * table.m + table.index[j]];
+                for (l, d) in latent.iter_mut().zip(g) {
+                    *l += w * kernel.combine(x, y, d);
+                }
+            }
+        }
+        Ok(JointGradient {
+            alpha: alpha.as_slice().to_vec(),
+            couplings: grad,
+            latent,
+            w_diag: diag,
+        })
+    }
+
+    /// Factorises the stacked covariance (dense Cholesky) after checking the inputs
+    /// against residuals `r`.
+    ///
+    /// # Errors
+    /// As [`JointPoints::log_likelihood`].
+    pub fn factor(&self, kernel: &JointKernel, r: &[f64]) -> Result<Factor, GpError> {
         self.check(kernel, r)?;
         Cholesky::new(self.covariance(kernel))
             .map(Factor::Dense)

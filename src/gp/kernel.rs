@@ -134,17 +134,74 @@ impl Term {
     /// `None` for other terms. With `x = πτ/P` and `k = h² eᶠ`, differentiating the formula
     /// of [`Term::QuasiPeriodic`] gives `f′ = −π sin(2x)/(2w²P) − τ/λ²`,
     /// `f″ = −π² cos(2x)/(w²P²) − 1/λ²`, `k′ = k f′`, `k″ = k (f′² + f″)`.
+    ///
+    /// One `sin_cos` and one `exp` per lag: `sin 2x = 2 sin x cos x`,
+    /// `cos 2x = 1 − 2 sin²x`.
     pub fn lag_derivatives(&self, tau_d: f64) -> Option<[f64; 3]> {
-        let QuasiPeriodicLag {
-            k,
-            x,
-            l2,
-            w2,
+        let Term::QuasiPeriodic {
+            amplitude_mps,
+            evolution_d,
             period_d,
-        } = self.quasi_periodic_lag(tau_d)?;
-        let f1 = -std::f64::consts::PI * (2.0 * x).sin() / (2.0 * w2 * period_d) - tau_d / l2;
-        let f2 = -(std::f64::consts::PI / period_d).powi(2) * (2.0 * x).cos() / w2 - 1.0 / l2;
+            smoothness,
+        } = *self
+        else {
+            return None;
+        };
+        let (l2, w2) = (evolution_d * evolution_d, smoothness * smoothness);
+        let (s, c) = (std::f64::consts::PI * tau_d / period_d).sin_cos();
+        let k = amplitude_mps * amplitude_mps * (-0.5 * (s * s / w2 + tau_d * tau_d / l2)).exp();
+        let f1 = -std::f64::consts::PI * s * c / (w2 * period_d) - tau_d / l2;
+        let f2 = -(std::f64::consts::PI / period_d).powi(2) * (1.0 - 2.0 * s * s) / w2 - 1.0 / l2;
         Some([k, k * f1, k * (f1 * f1 + f2)])
+    }
+
+    /// Derivatives of [`Term::lag_derivatives`] `[k, k′, k″]` with respect to the natural
+    /// logarithms of the evolution timescale λ, the smoothness w and the period P (in that
+    /// order) at lag `tau_d` (days); `None` for other terms. With `k = h² eᶠ`,
+    /// `∂k/∂θ = k f_θ`, `∂k′/∂θ = k (f_θ f′ + f′_θ)`,
+    /// `∂k″/∂θ = k (f_θ (f′² + f″) + 2 f′ f′_θ + f″_θ)`, and with `s, c = sin x, cos x`:
+    /// `f_lnλ = τ²/λ²`, `f′_lnλ = 2τ/λ²`, `f″_lnλ = 2/λ²`; `f_lnw = s²/w²`,
+    /// `f′_lnw = 2π s c/(w²P)`, `f″_lnw = 2(π/P)² (1 − 2s²)/w²`; `f_lnP = x s c/w²`,
+    /// `f′_lnP = π [s c + x (c² − s²)]/(w²P)`,
+    /// `f″_lnP = 2(π/P)² [(1 − 2s²) − 2 x s c]/w²`.
+    pub fn lag_derivative_gradients(&self, tau_d: f64) -> Option<[[f64; 3]; 3]> {
+        let Term::QuasiPeriodic {
+            evolution_d,
+            period_d,
+            smoothness,
+            ..
+        } = *self
+        else {
+            return None;
+        };
+        let [k, d1, _] = self.lag_derivatives(tau_d)?;
+        let pi = std::f64::consts::PI;
+        let (l2, w2) = (evolution_d * evolution_d, smoothness * smoothness);
+        let x = pi * tau_d / period_d;
+        let (s, c) = x.sin_cos();
+        let q = (pi / period_d).powi(2);
+        let f1 = if k > 0.0 { d1 / k } else { 0.0 };
+        let f2 = -q * (1.0 - 2.0 * s * s) / w2 - 1.0 / l2;
+        let partials = [
+            [tau_d * tau_d / l2, 2.0 * tau_d / l2, 2.0 / l2],
+            [
+                s * s / w2,
+                2.0 * pi * s * c / (w2 * period_d),
+                2.0 * q * (1.0 - 2.0 * s * s) / w2,
+            ],
+            [
+                x * s * c / w2,
+                pi * (s * c + x * (c * c - s * s)) / (w2 * period_d),
+                2.0 * q * ((1.0 - 2.0 * s * s) - 2.0 * x * s * c) / w2,
+            ],
+        ];
+        Some(partials.map(|[f, g1, g2]| {
+            [
+                k * f,
+                k * (f * f1 + g1),
+                k * (f * (f1 * f1 + f2) + 2.0 * f1 * g1 + g2),
+            ]
+        }))
     }
 
     /// The pieces of a quasi-periodic term at lag `tau_d` (days) that its derivatives
@@ -164,7 +221,6 @@ impl Term {
             x: std::f64::consts::PI * tau_d / period_d,
             l2: evolution_d * evolution_d,
             w2: smoothness * smoothness,
-            period_d,
         })
     }
 
@@ -202,8 +258,6 @@ struct QuasiPeriodicLag {
     l2: f64,
     /// `w²`.
     w2: f64,
-    /// `P`, days.
-    period_d: f64,
 }
 
 /// A sum of covariance terms.
@@ -330,6 +384,40 @@ mod tests {
             quality: 2.0,
         };
         assert_eq!(osc.lag_derivatives(1.0), None);
+    }
+
+    /// The hyperparameter derivatives of `[k, k′, k″]` against central differences of
+    /// the analytic lag derivatives in ln λ, ln w and ln P.
+    #[test]
+    fn quasi_periodic_lag_derivative_gradients() {
+        let params = [30.0_f64, 0.6, 11.0];
+        let term = |p: &[f64; 3]| Term::QuasiPeriodic {
+            amplitude_mps: 1.7,
+            evolution_d: p[0],
+            smoothness: p[1],
+            period_d: p[2],
+        };
+        for tau in [0.0, 0.4, 1.7, -6.2, 23.0, -41.3] {
+            let g = term(&params).lag_derivative_gradients(tau).unwrap();
+            for q in 0..3 {
+                let h = 1e-6_f64;
+                let (mut up, mut down) = (params, params);
+                up[q] *= h.exp();
+                down[q] *= (-h).exp();
+                let (a, b) = (
+                    term(&up).lag_derivatives(tau).unwrap(),
+                    term(&down).lag_derivatives(tau).unwrap(),
+                );
+                for d in 0..3 {
+                    let fd = (a[d] - b[d]) / (2.0 * h);
+                    assert!(
+                        (g[q][d] - fd).abs() < 1e-7 * fd.abs().max(1.0),
+                        "τ {tau}, parameter {q}, derivative {d}: {} vs {fd}",
+                        g[q][d]
+                    );
+                }
+            }
+        }
     }
 
     /// The quasi-periodic kernel is periodic in the limit λ → ∞ and equals h² at whole

@@ -4,6 +4,7 @@
 use serde_json::{Value, json};
 
 use crate::fit::Fit;
+use crate::gp::Activity;
 use crate::pipeline::Analysis;
 use crate::sample::Posterior;
 
@@ -97,6 +98,17 @@ fn activity_block(analysis: &Analysis, post: Option<&Posterior>) -> Option<Value
         "rotation_prior_d": {"mean": a.rotation.0, "sd": a.rotation.1},
         "parameters": parameters,
     });
+    if a.model == Activity::Joint
+        && let Value::Object(map) = &mut block
+    {
+        let names: Vec<&str> = fit
+            .options
+            .joint_indicators
+            .iter()
+            .filter_map(|&c| analysis.set.indicators.get(c).map(|i| i.name.as_str()))
+            .collect();
+        map.insert("joint_indicators".into(), json!(names));
+    }
     if let (Some(c), Value::Object(map)) = (fit.options.activity_indicator, &mut block) {
         let trained: serde_json::Map<String, Value> = a
             .model

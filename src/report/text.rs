@@ -142,6 +142,12 @@ pub fn summary_text(a: &Analysis) -> String {
     for (t, unit) in post.map_or(&fit.trend, |p| &p.trend).iter().zip(units) {
         let _ = writeln!(s, "trend: {} {unit}", format_summary(t));
     }
+    if let Some(model) = fit.layout.activity.as_ref().map(|a| a.model) {
+        let _ = writeln!(s, "activity ({}):", model.name());
+        for (key, v) in post.map_or(&fit.activity, |p| &p.activity) {
+            let _ = writeln!(s, "  {key} = {}", format_summary(v));
+        }
+    }
     let _ = writeln!(
         s,
         "\nln L = {:.2}, BIC = {:.2}, AIC = {:.2}, {} points, {} free parameters",

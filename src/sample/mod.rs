@@ -368,16 +368,30 @@ impl Posterior {
         cols
     }
 
-    /// Draws of each activity hyperparameter, physical units, named `activity.KEY`.
+    /// Draws of each activity hyperparameter, physical units, named `activity.KEY`, then
+    /// of each entry of the joint model's block ([`crate::fit::JointLayout::canonical`]
+    /// sign), named `activity.NAME`.
     fn activity_draws(&self) -> Vec<(String, Vec<f64>)> {
+        let layout = &self.layout;
         let values: Vec<Vec<f64>> = self
             .theta
             .iter()
-            .map(|t| self.layout.activity_values(t))
+            .map(|t| {
+                let mut v = layout.activity_values(t);
+                if let Some(joint) = &layout.joint {
+                    let mut block = layout.joint_block(t).to_vec();
+                    joint.canonical(&mut block);
+                    v.extend(block);
+                }
+                v
+            })
             .collect();
-        self.layout
+        let joint_names = layout.joint.iter().flat_map(|b| b.names.iter());
+        layout
             .activity_keys()
             .iter()
+            .copied()
+            .chain(joint_names.map(String::as_str))
             .enumerate()
             .map(|(q, key)| {
                 (

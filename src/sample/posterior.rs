@@ -70,7 +70,9 @@ impl PriorSet {
     /// - trend order k: uniform on ±10 R / (span in years)^k;
     /// - activity hyperparameters: log-uniform on their bounds
     ///   ([`crate::gp::ActivityLayout::new`]), the rotation period and any hyperparameter
-    ///   trained on an indicator Gaussian (the fit's priors) cut at its bounds.
+    ///   trained on an indicator Gaussian (the fit's priors) cut at its bounds;
+    /// - the joint model's couplings, indicator offsets and jitters: uniform
+    ///   ([`crate::fit::JointLayout::new`]), widened to 3 × the fitted value if needed.
     pub fn defaults(set: &RvSet, fit: &Fit, period_range_d: (f64, f64)) -> PriorSet {
         let layout = &fit.layout;
         let n_inst = set.n_instruments();
@@ -187,6 +189,17 @@ impl PriorSet {
                         let c = layout.regressor_target(r).0;
                         let b = 10.0 * range.max(median_err) / set.indicator_spread(c);
                         default(names[j].clone(), Prior::uniform(-b, b))
+                    }
+                    Role::Joint(q) => {
+                        let b = layout.joint.as_ref().expect("joint roles have the model");
+                        let (lo, hi) = b.prior_bounds[q];
+                        let reach = 3.0 * theta[j].abs();
+                        let (lo, hi) = if lo < 0.0 {
+                            (lo.min(-reach), hi.max(reach))
+                        } else {
+                            (lo, hi.max(reach))
+                        };
+                        default(names[j].clone(), Prior::uniform(lo, hi))
                     }
                     Role::Activity(q) => {
                         let a = layout.activity.as_ref().expect("activity roles have a GP");
