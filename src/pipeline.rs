@@ -336,6 +336,7 @@ pub fn search_settings(s: &Settings, star: &Star) -> SearchSettings {
             shape: s.orbit,
             trend: s.trend,
             activity: s.activity,
+            activity_per_instrument: s.activity_per_instrument,
             rotation_d: star
                 .rotation_d
                 .map(|p| crate::gp::rotation_prior(p, star.rotation_err_d)),
@@ -600,6 +601,15 @@ pub fn analyse(
         && let Some(a) = &search.fit.layout.activity
     {
         for (key, (lo, hi)) in a.model.keys().iter().zip(&a.bounds) {
+            priors.push(Prior {
+                parameter: format!("activity.{key}"),
+                kind: "bound",
+                detail: format!("{lo} to {hi}"),
+                source: "default",
+            });
+        }
+        let (lo, hi) = crate::gp::SCALE_BOUNDS;
+        for key in search.fit.layout.activity_scale_keys(&set.instruments) {
             priors.push(Prior {
                 parameter: format!("activity.{key}"),
                 kind: "bound",

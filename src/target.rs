@@ -243,6 +243,9 @@ pub struct Settings {
     /// (their fit becomes Gaussian priors of the RV fit); with `joint`, the column or
     /// columns fitted together with the RVs (default none).
     pub activity_indicator: Option<Columns>,
+    /// One activity amplitude per instrument, a factor on the first instrument's
+    /// (`quasiperiodic` and `oscillator`; default false).
+    pub activity_per_instrument: bool,
     /// Start `heft run` from the latest complete run's solution (default false: every run
     /// starts afresh, so identical inputs give identical results).
     pub warm_start: bool,
@@ -326,6 +329,7 @@ impl Default for Settings {
             max_memory_mb: None,
             activity: crate::gp::Activity::None,
             activity_indicator: None,
+            activity_per_instrument: false,
         }
     }
 }
@@ -969,6 +973,13 @@ pub fn parse(text: &str, path: &Path) -> Result<Target, TargetError> {
                 "the {:?} activity model needs the rotation period star.rotation_d",
                 s.activity
             ),
+        ));
+    }
+
+    if s.activity_per_instrument && s.activity == crate::gp::Activity::None {
+        return Err(invalid(
+            "settings.activity_per_instrument",
+            "needs an activity model: set settings.activity".into(),
         ));
     }
 

@@ -372,3 +372,59 @@ fn sampler_draws_the_activity_hyperparameters() {
     assert!((p.value - P_ROT).abs() < 3.0 * p.minus.max(p.plus));
     assert!((k.value - K_TRUE).abs() < 3.0 * k.minus.max(k.plus));
 }
+
+/// Per-instrument activity amplitudes: two invented spectrographs observe the same star
+/// on alternate epochs (110 random epochs over 160 days), the redder one seeing the
+/// activity at 0.4 × the bluer one's amplitude (spot contrast falls with wavelength,
+/// common practice) and sitting 7 m/s higher. Checks, in each of 4 realisations: the fit
+/// with one amplitude per instrument recovers the factor 0.4 and K = 4 m/s within 3σ,
+/// and fits the data better than one shared amplitude by more than its one extra
+/// parameter costs (ΔlnL > 2, likelihood-ratio test at about 5 %, χ²₁ 95th percentile
+/// 3.84 / 2 ≈ 1.9, common practice). Both fits' K and the factor are printed.
+#[test]
+fn per_instrument_amplitudes_are_recovered() {
+    for seed in 0..4 {
+        let mut rng = ChaCha8Rng::seed_from_u64(400 + seed);
+        let (t, activity) = activity_draw(&mut rng, 110);
+        let phase = rng.random_range(0.0..P_TRUE);
+        let mut set = injected(&mut rng, t, &activity, phase);
+        set.instruments = vec!["Blue".into(), "Red".into()];
+        for i in (1..set.len()).step_by(2) {
+            set.instrument[i] = 1;
+            set.rv_mps[i] += 7.0 - 0.6 * activity[i];
+        }
+        let shared = FitOptions {
+            shape: OrbitShape::Circular,
+            trend: 0,
+            activity: Activity::QuasiPeriodic,
+            rotation_d: Some(heft::gp::rotation_prior(P_ROT, 0.0)),
+            ..FitOptions::default()
+        };
+        let own = FitOptions {
+            activity_per_instrument: true,
+            ..shared.clone()
+        };
+        let a = fit::fit(&set, &[planet()], &shared).unwrap();
+        let b = fit::fit(&set, &[planet()], &own).unwrap();
+        let k = |f: &fit::Fit| {
+            let s = f.planets[0].k_mps;
+            (s.value, 0.5 * (s.minus + s.plus))
+        };
+        let (ka, sa) = k(&a);
+        let (kb, sb) = k(&b);
+        let scale = &b
+            .activity
+            .iter()
+            .find(|(key, _)| key == "scale.Red")
+            .expect("the factor is reported")
+            .1;
+        let (f, sf) = (scale.value, 0.5 * (scale.minus + scale.plus));
+        let gain = b.log_likelihood - a.log_likelihood;
+        println!(
+            "{seed}: shared K {ka:.2} ± {sa:.2} | own K {kb:.2} ± {sb:.2}, factor {f:.3} ± {sf:.3}, ΔlnL {gain:.1}"
+        );
+        assert!((f - 0.4).abs() <= 3.0 * sf, "{seed}: factor {f} ± {sf}");
+        assert!((kb - K_TRUE).abs() <= 3.0 * sb, "{seed}: K {kb} ± {sb}");
+        assert!(gain > 2.0, "{seed}: ΔlnL {gain}");
+    }
+}

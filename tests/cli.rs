@@ -853,6 +853,51 @@ fn fit_with_the_joint_activity_model() {
     );
 }
 
+/// `--activity-per-instrument`: with two spectrographs the second one's activity amplitude
+/// factor is an estimate in results.json (`scale.INSTRUMENT`); without an activity model,
+/// or with the joint one, exit 2 naming the problem.
+#[test]
+fn fit_with_per_instrument_activity_amplitudes() {
+    let (quill, fennick) = (repo("data-demo/quill.csv"), repo("data-demo/fennick.tsv"));
+    let args = |model: &'static str| {
+        vec![
+            "fit",
+            quill.as_str(),
+            fennick.as_str(),
+            "--period",
+            "47.3",
+            "--planets",
+            "1",
+            "--circular",
+            "--rotation-d",
+            "6.4",
+            "--activity",
+            model,
+            "--activity-per-instrument",
+            "--activity-indicator",
+            "line_width",
+        ]
+    };
+    let mut ok = args("quasiperiodic");
+    ok.push("--json");
+    let doc = json_of(&heft(&ok));
+    let scale = &doc["activity"]["parameters"]["scale.fennick"];
+    assert!(is_estimate(scale), "{}", doc["activity"]);
+    assert!(doc["activity"]["parameters"].get("scale.quill").is_none());
+    let out = heft(&args("joint"));
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("per-instrument"), "{}", stderr(&out));
+    let mut none = args("none");
+    none.truncate(none.len() - 2);
+    let out = heft(&none);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        stderr(&out).contains("--activity-per-instrument needs an activity model"),
+        "{}",
+        stderr(&out)
+    );
+}
+
 /// The audit compares K and mass with and without the activity GP: with a rotation period
 /// and no activity model, a quasi-periodic variant is fitted; with an activity model,
 /// a variant without it. Both carry the planet's K and mass.

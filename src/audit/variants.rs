@@ -445,9 +445,10 @@ pub fn cross_validate(refit: &Refitter, more: Option<&Fit>) -> Option<CrossValid
                         continue;
                     }
                     let t = set.time_d[j];
-                    let (gp_mean, gp_var) = activity
-                        .as_ref()
-                        .map_or((0.0, 0.0), |(m, v)| (m[j - lo], v[j - lo].max(0.0)));
+                    let scale = model.activity_scale(k);
+                    let (gp_mean, gp_var) = activity.as_ref().map_or((0.0, 0.0), |(m, v)| {
+                        (scale * m[j - lo], scale * scale * v[j - lo].max(0.0))
+                    });
                     let mean = p.planets_rv(t)
                         + p.offsets_mps[k]
                         + p.trend_rv(t)

@@ -55,6 +55,9 @@ pub struct FitArgs {
     /// with the RVs (repeat for several).
     #[arg(long, value_name = "COLUMN")]
     activity_indicator: Vec<String>,
+    /// One activity amplitude per instrument (quasiperiodic and oscillator models).
+    #[arg(long)]
+    activity_per_instrument: bool,
     /// 1σ uncertainty of the rotation period, days (default for the prior: 10 % of it).
     #[arg(long, requires = "rotation_d")]
     rotation_err_d: Option<f64>,
@@ -146,6 +149,11 @@ impl FitArgs {
         };
         let rotation = self.rotation()?;
         let set = self.input.load()?;
+        if self.activity_per_instrument && self.activity == Activity::None {
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--activity-per-instrument needs an activity model: --activity quasiperiodic|oscillator"
+            )));
+        }
         if !self.activity_indicator.is_empty() && self.activity == Activity::None {
             return Err(Failure::Input(anyhow::anyhow!(
                 "--activity-indicator needs an activity model: --activity quasiperiodic|oscillator|joint"
@@ -160,6 +168,7 @@ impl FitArgs {
             trend: usize::from(self.trend),
             activity: self.activity,
             rotation_d: rotation.map(|(p, e)| rotation_prior(p, e)),
+            activity_per_instrument: self.activity_per_instrument,
             ..FitOptions::default()
         };
         pipeline::activity_columns(&mut options, &set, &self.activity_indicator)

@@ -6,8 +6,10 @@
 //! orbits only) and `Tc`; then one offset per instrument; one jitter per instrument (or one
 //! shared by all); the trend coefficients; and the coefficients of any activity-indicator
 //! regressors; with the joint activity model, its couplings and indicator offsets and
-//! jitters ([`JointLayout`]); and, with a stellar-activity GP, the natural logarithm of
-//! each of its hyperparameters ([`crate::gp::Activity::keys`]). `(e cos ω, e sin ω)` is smooth through
+//! jitters ([`JointLayout`]); with a stellar-activity GP, the natural logarithm of each of
+//! its hyperparameters ([`crate::gp::Activity::keys`]); and, with per-instrument GP
+//! amplitudes, the natural logarithm of each instrument's amplitude relative to the first
+//! instrument's. `(e cos ω, e sin ω)` is smooth through
 //! e = 0, where ω is undefined.
 
 use super::joint::{JointLayout, Stack};
@@ -93,6 +95,9 @@ pub struct Layout {
     pub activity: Option<ActivityLayout>,
     /// The joint model's block (with [`crate::gp::Activity::Joint`]).
     pub joint: Option<JointLayout>,
+    /// The activity GP's amplitude differs between instruments: instrument `k ≥ 1` has its
+    /// own factor on the first instrument's ([`Role::ActivityScale`]).
+    pub activity_per_instrument: bool,
     /// Index in θ of each planet's first parameter.
     planet_start: Vec<usize>,
     /// Index of the first offset.
@@ -124,6 +129,9 @@ pub enum Role {
     Activity(usize),
     /// Entry `q` of the joint model's block ([`JointLayout`]).
     Joint(usize),
+    /// Natural logarithm of instrument `k`'s activity amplitude relative to the first
+    /// instrument's (`k ≥ 1`).
+    ActivityScale(usize),
 }
 
 impl Layout {
@@ -153,6 +161,7 @@ impl Layout {
             offset_priors: Vec::new(),
             activity: None,
             joint: None,
+            activity_per_instrument: false,
             planet_start,
             offsets_start: at,
         }
@@ -199,6 +208,46 @@ impl Layout {
             joint: Some(joint),
             ..self
         }
+    }
+
+    /// The same layout with one activity amplitude per instrument.
+    pub fn with_activity_per_instrument(self) -> Layout {
+        Layout {
+            activity_per_instrument: true,
+            ..self
+        }
+    }
+
+    /// Number of per-instrument activity amplitude factors.
+    pub fn n_activity_scales(&self) -> usize {
+        if self.activity_per_instrument {
+            self.n_instruments.saturating_sub(1)
+        } else {
+            0
+        }
+    }
+
+    /// Each instrument's activity amplitude factor at θ (1 for the first, and for all
+    /// without per-instrument amplitudes), moved into [`crate::gp::SCALE_BOUNDS`].
+    pub fn activity_scales(&self, theta: &[f64]) -> Vec<f64> {
+        let start = self.len() - self.n_activity_scales();
+        let (lo, hi) = crate::gp::SCALE_BOUNDS;
+        std::iter::once(1.0)
+            .chain(theta[start..].iter().map(|x| x.exp().clamp(lo, hi)))
+            .chain(std::iter::repeat(1.0))
+            .take(self.n_instruments)
+            .collect()
+    }
+
+    /// Keys of the per-instrument activity amplitude factors, `scale.INSTRUMENT`, for
+    /// instruments `names` (empty without them).
+    pub fn activity_scale_keys(&self, names: &[String]) -> Vec<String> {
+        names
+            .iter()
+            .skip(1)
+            .take(self.n_activity_scales())
+            .map(|n| format!("scale.{n}"))
+            .collect()
     }
 
     /// Number of entries of the joint model's block.
@@ -302,6 +351,7 @@ impl Layout {
             + self.n_regressors()
             + self.n_joint()
             + self.n_activity()
+            + self.n_activity_scales()
     }
 
     /// True when θ is empty (never: offsets and jitters are always free).
@@ -329,6 +379,7 @@ impl Layout {
         roles.extend((0..self.n_regressors()).map(Role::Regressor));
         roles.extend((0..self.n_joint()).map(Role::Joint));
         roles.extend((0..self.n_activity()).map(Role::Activity));
+        roles.extend((1..=self.n_activity_scales()).map(Role::ActivityScale));
         roles
     }
 
@@ -375,13 +426,19 @@ impl Layout {
 
     /// Indicator coefficients from θ.
     pub fn regressor_coefficients<'t>(&self, theta: &'t [f64]) -> &'t [f64] {
-        let end = theta.len() - self.n_activity() - self.n_joint();
+        let end = self.joint_range().start;
         &theta[end - self.n_regressors()..end]
+    }
+
+    /// Index range in θ of the activity hyperparameters (empty without a GP).
+    pub fn activity_range(&self) -> std::ops::Range<usize> {
+        let end = self.len() - self.n_activity_scales();
+        end - self.n_activity()..end
     }
 
     /// Index range in θ of the joint model's block (empty without it).
     pub fn joint_range(&self) -> std::ops::Range<usize> {
-        let end = self.len() - self.n_activity();
+        let end = self.activity_range().start;
         end - self.n_joint()..end
     }
 
@@ -414,7 +471,7 @@ impl Layout {
 
     /// Activity hyperparameters from θ in physical units (empty without a GP).
     pub fn activity_values(&self, theta: &[f64]) -> Vec<f64> {
-        theta[theta.len() - self.n_activity()..]
+        theta[self.activity_range()]
             .iter()
             .map(|x| x.exp())
             .collect()
@@ -473,7 +530,7 @@ impl Layout {
             None => params.log_likelihood(set),
             Some(kernel) => {
                 let white = white_variances(&params, set);
-                let scale = vec![1.0; set.len()];
+                let scale = self.point_scales(theta, set);
                 Points {
                     time_d: &set.time_d,
                     white: &white,
@@ -484,6 +541,13 @@ impl Layout {
             }
         };
         if l.is_nan() { f64::NEG_INFINITY } else { l }
+    }
+
+    /// Each point's activity amplitude factor at θ ([`Layout::activity_scales`] of its
+    /// instrument).
+    pub fn point_scales(&self, theta: &[f64], set: &RvSet) -> Vec<f64> {
+        let by_instrument = self.activity_scales(theta);
+        set.instrument.iter().map(|&k| by_instrument[k]).collect()
     }
 
     /// Model parameters from θ, with each eccentricity capped at `max_ecc` (the caller
@@ -557,6 +621,7 @@ impl Layout {
         if let Some(a) = &self.activity {
             theta.extend(a.start.iter().map(|x| x.ln()));
         }
+        theta.extend(std::iter::repeat_n(0.0, self.n_activity_scales()));
         theta
     }
 
@@ -577,7 +642,7 @@ impl Layout {
                 Role::Tc(i) => 0.01 * self.planets[i].period_d,
                 Role::Trend(k) => sigma / years.powi(k as i32),
                 Role::Regressor(j) => sigma / set.indicator_spread(self.regressor_target(j).0),
-                Role::Activity(_) => 0.1,
+                Role::Activity(_) | Role::ActivityScale(_) => 0.1,
                 Role::Joint(q) => self.joint.as_ref().map_or(1.0, |b| b.scale[q]),
             })
             .collect()
@@ -615,6 +680,7 @@ impl Layout {
                     .joint
                     .as_ref()
                     .map_or_else(String::new, |b| b.names[q].clone()),
+                Role::ActivityScale(k) => format!("ln_activity.scale.{}", instruments[k]),
             })
             .collect()
     }

@@ -101,6 +101,9 @@ pub struct FitOptions {
     /// Indicator columns fitted together with the RVs by the joint model
     /// ([`Activity::Joint`], which needs at least one; ignored by the other models).
     pub joint_indicators: Vec<usize>,
+    /// One activity amplitude per instrument (a factor on the first instrument's) with the
+    /// quasi-periodic and oscillator models (default false: one amplitude for all).
+    pub activity_per_instrument: bool,
 }
 
 impl Default for FitOptions {
@@ -119,6 +122,7 @@ impl Default for FitOptions {
             activity_indicator: None,
             activity_priors: [None; 4],
             joint_indicators: Vec::new(),
+            activity_per_instrument: false,
         }
     }
 }
@@ -252,7 +256,8 @@ impl Fit {
     }
 
     /// The activity GP's conditional mean and variance (m/s, m²/s²) at times `at_d`
-    /// (days from the epoch), given the residuals of this fit's mean model on `set`;
+    /// (days from the epoch), given the residuals of this fit's mean model on `set`, at the
+    /// first instrument's amplitude (multiply by [`Fit::activity_scale`] for another's);
     /// `None` without a GP or when its covariance cannot be factorised.
     pub fn activity_prediction(&self, set: &RvSet, at_d: &[f64]) -> Option<(Vec<f64>, Vec<f64>)> {
         if self.layout.joint.is_some() {
@@ -267,7 +272,7 @@ impl Fit {
         }
         let kernel = self.layout.kernel(&self.theta)?;
         let white = layout::white_variances(&self.params, set);
-        let scale = vec![1.0; set.len()];
+        let scale = self.layout.point_scales(&self.theta, set);
         Points {
             time_d: &set.time_d,
             white: &white,
@@ -281,6 +286,12 @@ impl Fit {
             &vec![1.0; at_d.len()],
         )
         .ok()
+    }
+
+    /// Instrument `k`'s activity amplitude relative to the first instrument's (1 without
+    /// per-instrument amplitudes).
+    pub fn activity_scale(&self, k: usize) -> f64 {
+        self.layout.activity_scales(&self.theta)[k]
     }
 
     /// `n` draws of θ from the Gaussian approximation `N(θ̂, C)` of the likelihood.
@@ -385,6 +396,14 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         );
         if options.activity == Activity::Joint {
             layout = layout.with_joint(joint_layout(set, options, rotation.0)?);
+        }
+        if options.activity_per_instrument {
+            if options.activity == Activity::Joint {
+                return Err(FitError::Options(
+                    "per-instrument activity amplitudes go with the quasiperiodic and oscillator models; the joint model has a coupling per series instead".into(),
+                ));
+            }
+            layout = layout.with_activity_per_instrument();
         }
     }
     if layout.len() >= set.len() {
@@ -520,7 +539,12 @@ pub fn train_activity(
         .activity
         .as_ref()
         .expect("the trained fit has the GP");
-    for (q, (key, s)) in trained.activity.iter().enumerate() {
+    for (q, (key, s)) in trained
+        .activity
+        .iter()
+        .enumerate()
+        .take(layout.bounds.len())
+    {
         let sd = 0.5 * (s.minus + s.plus);
         // The curvature error of the logarithm, ln(1 + plus/value).
         let sd_ln = (s.plus / s.value).ln_1p();
@@ -759,29 +783,32 @@ fn finish(set: &RvSet, layout: Layout, theta: Vec<f64>, options: &FitOptions) ->
                 .expect("regressors are free"))
         })
         .collect();
+    // Fitted as logarithms: errors from the curvature in the logarithm.
+    let log_summary = |j: usize| {
+        let (ln, sd) = (theta[j], covariance[(j, j)].max(0.0).sqrt());
+        let value = ln.exp();
+        Summary {
+            minus: value - (ln - sd).exp(),
+            plus: (ln + sd).exp() - value,
+            ..Summary::exact(value)
+        }
+    };
+    let n_scales = layout.n_activity_scales();
     let activity = layout
-        .activity_keys()
-        .iter()
-        .enumerate()
-        .map(|(q, key)| {
-            let j = layout
-                .index(Role::Activity(q))
-                .expect("activity hyperparameters are free");
-            let (ln, sd) = (theta[j], covariance[(j, j)].max(0.0).sqrt());
-            let value = ln.exp();
-            let summary = Summary {
-                minus: value - (ln - sd).exp(),
-                plus: (ln + sd).exp() - value,
-                ..Summary::exact(value)
-            };
-            (key.to_string(), summary)
-        })
+        .activity_range()
+        .zip(layout.activity_keys())
+        .map(|(j, key)| (key.to_string(), log_summary(j)))
         .chain(layout.joint.iter().flat_map(|b| {
             layout.joint_range().zip(&b.names).map(|(j, name)| {
                 let sd = covariance[(j, j)].max(0.0).sqrt();
                 (name.clone(), Summary::symmetric(theta[j], sd))
             })
         }))
+        .chain(
+            (layout.len() - n_scales..layout.len())
+                .zip(layout.activity_scale_keys(&set.instruments))
+                .map(|(j, key)| (key, log_summary(j))),
+        )
         .collect::<Vec<_>>();
     if let Some(a) = &layout.activity {
         for (q, (key, s)) in activity.iter().enumerate().take(a.bounds.len()) {

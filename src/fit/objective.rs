@@ -6,7 +6,7 @@ use crate::data::RvSet;
 
 use super::joint::JointEntry;
 use super::layout::{Layout, Role, white_variances};
-use crate::gp::{Factor, Points, Solver, Term};
+use crate::gp::{Factor, Points, SCALE_BOUNDS, Solver, Term, log_wall};
 use crate::model::DAYS_PER_YEAR;
 
 /// Weight of the quadratic penalty `W (e − e_max)²` on eccentricities above the cap.
@@ -35,6 +35,11 @@ impl Objective<'_> {
             Some(a) => a.penalty(&self.layout.activity_values(theta)),
             None => 0.0,
         };
+        let scales = self.layout.len() - self.layout.n_activity_scales();
+        total += theta[scales..]
+            .iter()
+            .map(|x| log_wall(*x, SCALE_BOUNDS).0)
+            .sum::<f64>();
         total += self.neg_log_likelihood(theta) + self.layout.offset_penalty(theta, None);
         for (i, spec) in self.layout.planets.iter().enumerate() {
             let [p, _, ec, es, tc] = self.layout.planet_elements(theta, i);
@@ -97,6 +102,7 @@ impl Objective<'_> {
         let kernel = layout.kernel(theta);
         let gp = kernel.is_some() || layout.joint.is_some();
         let mut hyper: Option<Vec<f64>> = None;
+        let mut by_scale = vec![0.0; set.n_instruments()];
         let mut joint = None;
         if layout.joint.is_some() {
             let Some(Ok((kernel, stack))) = layout.joint_problem(theta, &params, set) else {
@@ -116,7 +122,7 @@ impl Objective<'_> {
         let white_known = joint.is_some();
         if let Some(kernel) = &kernel {
             let white = white_variances(&params, set);
-            let scale = vec![1.0; n];
+            let scale = layout.point_scales(theta, set);
             let points = Points {
                 time_d: &set.time_d,
                 white: &white,
@@ -132,12 +138,13 @@ impl Objective<'_> {
             if let (Factor::Dense(chol), [term @ Term::QuasiPeriodic { .. }]) =
                 (&factor, kernel.terms.as_slice())
             {
-                let (w_diag, g) = dense_gradient(chol, &alpha, term, &set.time_d);
+                let dense = dense_gradient(chol, &alpha, term, &set.time_d, &scale);
                 dfds.iter_mut().for_each(|d| *d = 0.0);
-                for (i, w) in w_diag.iter().enumerate() {
+                for (i, w) in dense.w_diag.iter().enumerate() {
                     dfds[set.instrument[i]] += w;
+                    by_scale[set.instrument[i]] += dense.scale[i];
                 }
-                hyper = Some(self.hyper_gradient(theta, &g));
+                hyper = Some(self.hyper_gradient(theta, &dense.hyper));
             }
         }
         let white_known = white_known || hyper.is_some();
@@ -174,6 +181,11 @@ impl Objective<'_> {
                     }
                 }
                 Role::Activity(_) => by_difference(j),
+                Role::ActivityScale(k) if hyper.is_some() => {
+                    let inside = (SCALE_BOUNDS.0.ln()..=SCALE_BOUNDS.1.ln()).contains(&theta[j]);
+                    log_wall(theta[j], SCALE_BOUNDS).1 + if inside { by_scale[k] } else { 0.0 }
+                }
+                Role::ActivityScale(_) => by_difference(j),
                 Role::Jitter(_) if gp && !white_known => by_difference(j),
                 Role::Jitter(g) => {
                     theta[j]
@@ -265,36 +277,57 @@ impl Objective<'_> {
 }
 
 /// With `W = K⁻¹ − ααᵀ` (α = K⁻¹r, K factorised by `chol`, one quasi-periodic `term` at
-/// times `t`): the diagonal of `W`, `∂(−ln L)/∂K_ii = ½ W_ii`, and
-/// `∂(−ln L)/∂ln θ_q = ½ Σ_ij W_ij ∂K_ij/∂ln θ_q` for `θ = (h, λ, P, w)` (Rasmussen &
-/// Williams 2006, eq. 5.9).
+/// times `t` with per-point amplitude factors `s`): the diagonal of `W`,
+/// `∂(−ln L)/∂K_ii = ½ W_ii`, `∂(−ln L)/∂ln θ_q = ½ Σ_ij W_ij ∂K_ij/∂ln θ_q` for
+/// `θ = (h, λ, P, w)` (Rasmussen & Williams 2006, eq. 5.9), and the amplitude factors'
+/// pieces ([`DenseGradient::scale`]).
 fn dense_gradient(
     chol: &nalgebra::Cholesky<f64, nalgebra::Dyn>,
     alpha: &[f64],
     term: &Term,
     t: &[f64],
-) -> (Vec<f64>, [f64; 4]) {
+    s: &[f64],
+) -> DenseGradient {
     let kinv = crate::gp::spd_inverse(chol);
     let at_zero = term.log_gradient(0.0).expect("a quasi-periodic term");
-    let mut g = [0.0; 4];
-    let mut diag = Vec::with_capacity(t.len());
+    let mut out = DenseGradient {
+        w_diag: Vec::with_capacity(t.len()),
+        hyper: [0.0; 4],
+        scale: vec![0.0; t.len()],
+    };
     for i in 0..t.len() {
         let wii = kinv[(i, i)] - alpha[i] * alpha[i];
-        diag.push(wii);
-        for q in 0..4 {
-            g[q] += 0.5 * wii * at_zero[q];
+        out.w_diag.push(wii);
+        let ss = s[i] * s[i];
+        for (g, d) in out.hyper.iter_mut().zip(at_zero) {
+            *g += 0.5 * wii * d * ss;
         }
+        // k = ½ ∂k/∂ln h.
+        out.scale[i] += wii * 0.5 * at_zero[0] * ss;
         for j in 0..i {
-            let w = kinv[(i, j)] - alpha[i] * alpha[j];
+            let w = (kinv[(i, j)] - alpha[i] * alpha[j]) * s[i] * s[j];
             let d = term
                 .log_gradient(t[i] - t[j])
                 .expect("a quasi-periodic term");
-            for q in 0..4 {
-                g[q] += w * d[q];
+            for (g, d) in out.hyper.iter_mut().zip(d) {
+                *g += w * d;
             }
+            out.scale[i] += w * 0.5 * d[0];
+            out.scale[j] += w * 0.5 * d[0];
         }
     }
-    (diag, g)
+    out
+}
+
+/// The pieces of the likelihood gradient of [`dense_gradient`].
+struct DenseGradient {
+    /// Diagonal of `W`.
+    w_diag: Vec<f64>,
+    /// `∂(−ln L)/∂ln θ_q`, `θ = (h, λ, P, w)`.
+    hyper: [f64; 4],
+    /// `Σ_j W_ij K^GP_ij` of each point: `∂(−ln L)/∂ln s_k` is its sum over the points of
+    /// instrument `k` (`K^GP_ij = s_i s_j k(t_i − t_j)`).
+    scale: Vec<f64>,
 }
 
 /// Central-difference gradient of `f` at `x` with steps `h`.
@@ -425,14 +458,23 @@ mod tests {
                 200.0,
             ))
             .with_joint(crate::fit::JointLayout::new(&set, &[0], 4.0, 12.0));
-        for layout in [base, robust, with_gp, joint] {
+        // Per-instrument amplitudes: the second instrument's factor analytic with the
+        // quasi-periodic kernel, by differences with the oscillators.
+        let scaled = with_gp.clone().with_activity_per_instrument();
+        let oscillator = ActivityLayout::new(Activity::Oscillator, (12.0, 1.0), 4.0, 200.0);
+        let shared = base.clone().with_activity(oscillator.clone());
+        let oscillators = shared.clone().with_activity_per_instrument();
+        for layout in [base, robust, with_gp, joint, scaled, shared, oscillators] {
             let mut theta = layout.initial(&[0.5, -0.3], &[1.1, 0.7], &[0.3, -0.05]);
             let m = theta.len();
             if layout.n_regressors() == 2 {
                 theta[m - 2..].copy_from_slice(&[0.8, -1.3]);
             }
             if layout.activity.is_some() {
-                theta[m - layout.n_activity() + Activity::ROTATION] = 12.6_f64.ln();
+                theta[layout.activity_range().start + Activity::ROTATION] = 12.6_f64.ln();
+            }
+            if layout.n_activity_scales() == 1 {
+                theta[m - 1] = 1.4_f64.ln();
             }
             let b = layout.joint_range();
             if !b.is_empty() {
@@ -447,15 +489,19 @@ mod tests {
                 max_ecc: 0.95,
             };
             let scale = layout.scales(&set);
-            let fwd: Vec<f64> = scale.iter().map(|s| 1e-7 * s).collect();
+            // Forward steps of 1e-6 scales: at 1e-7 their rounding error (ε|r|/h summed
+            // with α) reaches 1e-4 in the planet period with the oscillators.
+            let fwd: Vec<f64> = scale.iter().map(|s| 1e-6 * s).collect();
             let central: Vec<f64> = scale.iter().map(|s| 1e-4 * s).collect();
             let g = obj.gradient(&theta, &fwd);
             let reference = gradient(&|x: &[f64]| obj.value(x), &theta, &central);
             for (j, (a, b)) in g.iter().zip(&reference).enumerate() {
                 assert!(
                     (a - b).abs() <= 1e-4 * b.abs().max(1.0),
-                    "{:?} θ[{j}]: {a} vs {b}",
-                    layout.noise
+                    "{:?}, activity {:?}, {} scales: θ[{j}]: {a} vs {b}",
+                    layout.noise,
+                    layout.activity.as_ref().map(|a| a.model),
+                    layout.n_activity_scales()
                 );
             }
         }

@@ -180,6 +180,26 @@ pub fn near_rotation(period_d: f64, rotation_d: f64) -> Option<String> {
 /// Weight of the quadratic wall at the hyperparameter bounds, per (ln unit)².
 pub const BOUND_PENALTY: f64 = 1e6;
 
+/// Bounds of an instrument's activity amplitude relative to the first instrument's (a
+/// choice of heft's: spot-driven RV amplitudes fall with wavelength, but not by a factor
+/// 10 between spectrographs).
+pub const SCALE_BOUNDS: (f64, f64) = (0.1, 10.0);
+
+/// The smooth wall at bounds `(lo, hi)` for a positive quantity of natural logarithm `x`:
+/// [`BOUND_PENALTY`] × (ln of the factor by which it leaves them)², and its derivative in
+/// `x`.
+pub fn log_wall(x: f64, (lo, hi): (f64, f64)) -> (f64, f64) {
+    let above = x - hi.ln();
+    let below = lo.ln() - x;
+    if above > 0.0 {
+        (BOUND_PENALTY * above * above, 2.0 * BOUND_PENALTY * above)
+    } else if below > 0.0 {
+        (BOUND_PENALTY * below * below, -2.0 * BOUND_PENALTY * below)
+    } else {
+        (0.0, 0.0)
+    }
+}
+
 impl ActivityLayout {
     /// Bounds and starts for data of standard deviation `rv_sd_mps` (about the
     /// instruments' means) over `baseline_d` days, rotation prior `rotation = (mean, sd)`.
@@ -274,10 +294,7 @@ impl ActivityLayout {
         let walls: f64 = values
             .iter()
             .zip(&self.bounds)
-            .map(|(v, &(lo, hi))| {
-                let excess = (v / hi).ln().max((lo / v).ln()).max(0.0);
-                BOUND_PENALTY * excess * excess
-            })
+            .map(|(v, &b)| log_wall(v.ln(), b).0)
             .sum();
         let gaussians: f64 = self
             .clamp(values)

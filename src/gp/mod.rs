@@ -16,8 +16,8 @@ pub mod kernel;
 pub mod semiseparable;
 
 pub use activity::{
-    Activity, ActivityLayout, ROTATION_SD_FRACTION, ROTATION_TOLERANCE, near_rotation,
-    rotation_prior,
+    Activity, ActivityLayout, ROTATION_SD_FRACTION, ROTATION_TOLERANCE, SCALE_BOUNDS, log_wall,
+    near_rotation, rotation_prior,
 };
 pub use joint::{Coupling, JointGradient, JointKernel, JointPoints};
 pub use kernel::{Kernel, Term};

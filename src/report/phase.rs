@@ -68,6 +68,22 @@ pub fn jitters(results: &Value) -> BTreeMap<String, f64> {
         .collect()
 }
 
+/// Each instrument's activity amplitude factor from `results.json` (`scale.NAME` in the
+/// activity block; instruments without one have factor 1).
+pub fn activity_scales(results: &Value) -> BTreeMap<String, f64> {
+    results["activity"]["parameters"]
+        .as_object()
+        .into_iter()
+        .flatten()
+        .filter_map(|(key, v)| {
+            Some((
+                key.strip_prefix("scale.")?.to_string(),
+                v["value"].as_f64()?,
+            ))
+        })
+        .collect()
+}
+
 /// Error bar of each point, m/s: its uncertainty and its instrument's jitter in
 /// quadrature.
 fn error_bars(points: &Points, jit: &BTreeMap<String, f64>) -> Vec<f64> {
@@ -254,16 +270,32 @@ fn time_axis(points: &Points) -> (f64, (f64, f64)) {
 }
 
 /// The activity model against time: the data minus planets, offsets and trend (one
-/// marker per epoch, error bars from uncertainty and jitter in quadrature), the activity
-/// GP's conditional mean (line) and its ±1σ band (dashed lines).
-pub fn activity_svg(points: &Points, curve: &ActivityCurve, jit: &BTreeMap<String, f64>) -> String {
+/// marker per epoch, error bars from uncertainty and jitter in quadrature; each divided by
+/// its instrument's activity amplitude factor in `scales`), the activity GP's conditional
+/// mean at the first instrument's amplitude (line) and its ±1σ band (dashed lines).
+pub fn activity_svg(
+    points: &Points,
+    curve: &ActivityCurve,
+    jit: &BTreeMap<String, f64>,
+    scales: &BTreeMap<String, f64>,
+) -> String {
     let names = points.instruments();
-    let err = error_bars(points, jit);
+    let factor: Vec<f64> = points
+        .points
+        .iter()
+        .map(|p| scales.get(&p.instrument).copied().unwrap_or(1.0))
+        .collect();
+    let err: Vec<f64> = error_bars(points, jit)
+        .iter()
+        .zip(&factor)
+        .map(|(e, f)| e / f)
+        .collect();
     let (offset, (tlo, thi)) = time_axis(points);
     let y: Vec<f64> = points
         .points
         .iter()
-        .map(|p| p.residual_mps + p.activity_mps)
+        .zip(&factor)
+        .map(|(p, f)| (p.residual_mps + p.activity_mps) / f)
         .collect();
     let shown: Vec<&[f64; 3]> = curve
         .iter()

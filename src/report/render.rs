@@ -9,7 +9,9 @@ use super::files::write_atomic;
 use super::html::{PageFigure, report_html};
 use super::mass_radius::{PlanetCloud, mass_radius_svg};
 use super::pgram::periodogram_svg;
-use super::phase::{ModelPlanet, activity_svg, jitters, phase_svg, residuals_time_svg};
+use super::phase::{
+    ModelPlanet, activity_scales, activity_svg, jitters, phase_svg, residuals_time_svg,
+};
 use super::saved::{SavedError, SavedRun, read_run};
 use super::table::ResultsTable;
 
@@ -100,8 +102,8 @@ pub fn figures(run: &SavedRun) -> Vec<PageFigure> {
         figs.push(PageFigure {
             section: "residuals",
             file: "activity.svg".into(),
-            svg: activity_svg(&run.points, curve, &jit),
-            caption: "The stellar-activity model: RVs minus the planets, offsets and trend against time, one marker per epoch (error bars: uncertainty and jitter in quadrature), with the activity Gaussian process's conditional mean (line) and ±1σ (thin lines).".into(),
+            svg: activity_svg(&run.points, curve, &jit, &activity_scales(r)),
+            caption: "The stellar-activity model: RVs minus the planets, offsets and trend against time, one marker per epoch (error bars: uncertainty and jitter in quadrature; with one activity amplitude per instrument, each instrument's points and error bars divided by its amplitude factor), with the activity Gaussian process's conditional mean at the first instrument's amplitude (line) and ±1σ (thin lines).".into(),
             wide: false,
         });
     }

@@ -75,7 +75,13 @@ pub fn points_csv(a: &Analysis) -> String {
         std::iter::once((&a.set, "used")).chain(a.data_log.left_out.iter().map(|(s, w)| (s, *w)));
     for (set, status) in parts {
         let model = params.predict(set);
-        let activity = fit.activity_prediction(&a.set, &set.time_d).map(|p| p.0);
+        // Each point's activity at its own instrument's amplitude.
+        let activity = fit.activity_prediction(&a.set, &set.time_d).map(|p| {
+            p.0.iter()
+                .zip(&set.instrument)
+                .map(|(m, &k)| m * fit.activity_scale(k))
+                .collect::<Vec<f64>>()
+        });
         for (i, m) in model.iter().enumerate() {
             let o = set.origin[i];
             let file = set.files.get(o.file).map_or(String::new(), |f| {

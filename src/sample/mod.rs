@@ -263,7 +263,11 @@ fn starting_walkers(
         .iter()
         .zip(&roles)
         .map(|(s, r)| match r {
-            Role::ECosW(_) | Role::ESinW(_) | Role::Jitter(_) | Role::Activity(_) => 1e-2,
+            Role::ECosW(_)
+            | Role::ESinW(_)
+            | Role::Jitter(_)
+            | Role::Activity(_)
+            | Role::ActivityScale(_) => 1e-2,
             _ => 1e-2 * s,
         })
         .collect();
@@ -364,14 +368,15 @@ impl Posterior {
                 noise.iter().map(|n| n.2[p]).collect(),
             ));
         }
-        cols.extend(self.activity_draws());
+        cols.extend(self.activity_draws(instruments));
         cols
     }
 
     /// Draws of each activity hyperparameter, physical units, named `activity.KEY`, then
     /// of each entry of the joint model's block ([`crate::fit::JointLayout::canonical`]
-    /// sign), named `activity.NAME`.
-    fn activity_draws(&self) -> Vec<(String, Vec<f64>)> {
+    /// sign), named `activity.NAME`, then of each instrument's activity amplitude factor
+    /// (`activity.scale.INSTRUMENT`, instruments `instruments`).
+    fn activity_draws(&self, instruments: &[String]) -> Vec<(String, Vec<f64>)> {
         let layout = &self.layout;
         let values: Vec<Vec<f64>> = self
             .theta
@@ -383,15 +388,17 @@ impl Posterior {
                     joint.canonical(&mut block);
                     v.extend(block);
                 }
+                v.extend(layout.activity_scales(t).into_iter().skip(1));
                 v
             })
             .collect();
-        let joint_names = layout.joint.iter().flat_map(|b| b.names.iter());
+        let joint_names = layout.joint.iter().flat_map(|b| b.names.iter().cloned());
         layout
             .activity_keys()
             .iter()
-            .copied()
-            .chain(joint_names.map(String::as_str))
+            .map(|k| k.to_string())
+            .chain(joint_names)
+            .chain(layout.activity_scale_keys(instruments))
             .enumerate()
             .map(|(q, key)| {
                 (
@@ -465,8 +472,9 @@ impl Posterior {
         self.trend = (0..self.layout.trend)
             .map(|p| summary(&noise.iter().map(|n| n.2[p]).collect::<Vec<_>>()))
             .collect();
+        let names: Vec<String> = fit.instruments.iter().map(|i| i.name.clone()).collect();
         self.activity = self
-            .activity_draws()
+            .activity_draws(&names)
             .into_iter()
             .map(|(name, draws)| {
                 let key = name.trim_start_matches("activity.").to_string();

@@ -71,6 +71,8 @@ impl PriorSet {
     /// - activity hyperparameters: log-uniform on their bounds
     ///   ([`crate::gp::ActivityLayout::new`]), the rotation period and any hyperparameter
     ///   trained on an indicator Gaussian (the fit's priors) cut at its bounds;
+    /// - per-instrument activity amplitude factors: log-uniform on
+    ///   [`crate::gp::SCALE_BOUNDS`];
     /// - the joint model's couplings, indicator offsets and jitters: uniform
     ///   ([`crate::fit::JointLayout::new`]), widened to 3 × the fitted value if needed.
     pub fn defaults(set: &RvSet, fit: &Fit, period_range_d: (f64, f64)) -> PriorSet {
@@ -189,6 +191,13 @@ impl PriorSet {
                         let c = layout.regressor_target(r).0;
                         let b = 10.0 * range.max(median_err) / set.indicator_spread(c);
                         default(names[j].clone(), Prior::uniform(-b, b))
+                    }
+                    Role::ActivityScale(_) => {
+                        let (lo, hi) = crate::gp::SCALE_BOUNDS;
+                        default(
+                            names[j].replace("ln_activity.", "activity."),
+                            Prior::log_uniform(lo, hi),
+                        )
                     }
                     Role::Joint(q) => {
                         let b = layout.joint.as_ref().expect("joint roles have the model");
@@ -404,7 +413,9 @@ impl<'a> LogPosterior<'a> {
             Role::ECosW(_) => entry
                 .prior
                 .ln_density(psi[j] * psi[j] + psi[j + 1] * psi[j + 1]),
-            Role::Jitter(_) | Role::Activity(_) => entry.prior.ln_density(psi[j].exp()) + psi[j],
+            Role::Jitter(_) | Role::Activity(_) | Role::ActivityScale(_) => {
+                entry.prior.ln_density(psi[j].exp()) + psi[j]
+            }
             _ => entry.prior.ln_density(psi[j] + entry.shift),
         }
     }
