@@ -428,3 +428,84 @@ fn per_instrument_amplitudes_are_recovered() {
         assert!(gain > 2.0, "{seed}: ΔlnL {gain}");
     }
 }
+
+/// The signal search with an activity model: on activity alone (no planet; 110 random
+/// epochs, evolution 25 d) the white-noise search takes activity peaks for signals
+/// (false-alarm probability below 0.1 %, common practice threshold), while with the
+/// quasi-periodic model none of the ten candidates from the periodogram under it lowers
+/// the BIC by 10 and the search adds none; with the planet injected as well, the search
+/// with the activity model finds it (period within 1 % of 9.3 d). Three realisations.
+/// Seen: the white-noise searches found 2–3 signals at 12.5–15.6 d and near 70 d; under
+/// the GP the best candidate's ΔBIC was −5.9, −2.4 and −2.1; the planet was added with
+/// ΔBIC 65–73, once where its peak in the white-noise residual periodogram had a
+/// false-alarm probability of 0.999.
+#[test]
+fn search_with_activity_model_rejects_activity_peaks() {
+    let settings = |activity: Activity| fit::SearchSettings {
+        period_min_d: 1.5,
+        period_max_d: Some(100.0),
+        oversample: 5.0,
+        fap_threshold: 1e-3,
+        count: fit::SignalCount::UpTo(3),
+        options: FitOptions {
+            shape: OrbitShape::Circular,
+            trend: 0,
+            activity,
+            rotation_d: (activity != Activity::None).then(|| heft::gp::rotation_prior(P_ROT, 0.0)),
+            ..FitOptions::default()
+        },
+    };
+    for seed in 0..3 {
+        let mut rng = ChaCha8Rng::seed_from_u64(700 + seed);
+        let (t, activity) = activity_draw(&mut rng, 110);
+        let n = t.len();
+        let only_activity: Vec<f64> = activity
+            .iter()
+            .map(|a| a + rng.sample::<f64, _>(StandardNormal))
+            .collect();
+        let quiet = RvSet::from_columns(
+            "activity only",
+            2_460_000.0,
+            t.clone(),
+            only_activity,
+            vec![1.0; n],
+            vec![0; n],
+            vec!["Sim".into()],
+        );
+        let white = fit::search(&quiet, &[], &settings(Activity::None)).unwrap();
+        let gp = fit::search(&quiet, &[], &settings(Activity::QuasiPeriodic)).unwrap();
+        let periods = |s: &fit::Search| -> Vec<f64> {
+            s.fit.planets.iter().map(|p| p.period_d.value).collect()
+        };
+        let best = gp
+            .steps
+            .iter()
+            .flat_map(|s| s.activity_rejected.iter().map(|r| r.1))
+            .fold(f64::NEG_INFINITY, f64::max);
+        println!(
+            "{seed}: activity only: white-noise search {:?} d; with the GP {:?} d (best ΔBIC of the candidates {best:.1})",
+            periods(&white),
+            periods(&gp)
+        );
+        assert!(
+            !white.fit.planets.is_empty(),
+            "{seed}: white search found nothing"
+        );
+        assert!(gp.fit.planets.is_empty(), "{seed}: {:?}", periods(&gp));
+        let phase = rng.random_range(0.0..P_TRUE);
+        let with_planet = injected(&mut rng, t, &activity, phase);
+        let found = fit::search(&with_planet, &[], &settings(Activity::QuasiPeriodic)).unwrap();
+        let added: Vec<Option<f64>> = found.steps.iter().map(|s| s.activity_delta_bic).collect();
+        println!(
+            "   with the planet: {:?} d (ΔBIC of each round's added signal {added:?})",
+            periods(&found)
+        );
+        assert!(
+            periods(&found)
+                .iter()
+                .any(|p| (p / P_TRUE - 1.0).abs() < 0.01),
+            "{seed}: {:?}",
+            periods(&found)
+        );
+    }
+}

@@ -16,7 +16,8 @@ pub use aliases::{AliasRefit, alias_refits};
 pub use joint::{JointEntry, JointLayout, Stack, TOKEN_ERROR_FRACTION};
 pub use layout::{Layout, OffsetPrior, PlanetSpec, Role};
 pub use search::{
-    Search, SearchSettings, SearchStep, SignalCount, next_label, search, search_warm,
+    ACTIVITY_SEARCH_BIC, Search, SearchSettings, SearchStep, SignalCount, next_label, search,
+    search_warm,
 };
 pub use significance::{
     EccentricityTest, LUCY_SWEENEY_LEVEL, SignalTest, lucy_sweeney_p, signal_tests,
@@ -28,7 +29,7 @@ use rand_distr::StandardNormal;
 use serde::Serialize;
 
 use crate::data::{RvSet, median};
-use crate::gp::{Activity, ActivityLayout, Points, Solver};
+use crate::gp::{Activity, ActivityLayout, Factor, Points, Solver};
 use crate::model::{Noise, Params};
 use crate::orbit::periastron_from_conjunction;
 use crate::summary::{Summary, wrap_pi};
@@ -286,6 +287,27 @@ impl Fit {
             &vec![1.0; at_d.len()],
         )
         .ok()
+    }
+
+    /// The activity model's factorised covariance at this fit and the residuals it
+    /// applies to: the RVs' (m/s) in data order, then with the joint model the indicator
+    /// points' ([`Stack`]); `None` without an activity model or when the covariance cannot
+    /// be factorised.
+    pub fn activity_factor(&self, set: &RvSet) -> Option<(Factor, Vec<f64>)> {
+        if self.layout.joint.is_some() {
+            let (factor, stack) = self.layout.joint_factor(&self.theta, &self.params, set)?;
+            return Some((factor, stack.residual));
+        }
+        let kernel = self.layout.kernel(&self.theta)?;
+        let white = layout::white_variances(&self.params, set);
+        let scale = self.layout.point_scales(&self.theta, set);
+        let points = Points {
+            time_d: &set.time_d,
+            white: &white,
+            scale: &scale,
+        };
+        let factor = points.factor(&kernel, Solver::Auto).ok()?;
+        Some((factor, self.params.residuals(set)))
     }
 
     /// Instrument `k`'s activity amplitude relative to the first instrument's (1 without

@@ -1,12 +1,21 @@
 //! Iterative signal search: periodogram of the residuals, strongest peak, joint refit of
 //! all signals, until the strongest peak's false-alarm probability is above the threshold.
+//! With an activity model the periodogram only proposes: the residuals it sees still hold
+//! the activity signal, so a peak is kept only when the fit with it, activity model
+//! included, beats the fit without it by [`ACTIVITY_SEARCH_BIC`] in BIC. The candidates are
+//! the [`ACTIVITY_SEARCH_PEAKS`] highest peaks of the likelihood-ratio periodogram under
+//! the activity model ([`activity_periodogram`]); each is fitted and the one that lowers
+//! the BIC most is added.
 //! The periodograms use the fast method (within ~1e-11 of the exact sums, and like them
 //! independent of the thread count).
 
 use super::{FRESH_STARTS, Fit, FitError, FitOptions, PlanetSpec, fit};
 use crate::data::RvSet;
-use crate::periodogram::{self, Grid, Peak, Periodogram};
+use crate::gp::Activity;
+use crate::gp::Factor;
+use crate::periodogram::{self, Grid, Peak, Periodogram, local_maxima};
 use crate::target::OrbitShape;
+use rayon::prelude::*;
 
 /// How many signals the search adds.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -40,10 +49,19 @@ pub struct SearchSettings {
 pub struct SearchStep {
     /// Periodogram of the residuals of the fit so far.
     pub periodogram: Periodogram,
-    /// Its strongest peak, if any.
+    /// Its strongest peak, or the peak whose signal was added (with an activity model the
+    /// one whose signal lowers the BIC most), if any.
     pub peak: Option<Peak>,
     /// Whether that peak was added as a signal.
     pub accepted: bool,
+    /// With an activity model, the BIC of the fit without the added signal minus that
+    /// with it (at least [`ACTIVITY_SEARCH_BIC`]); `None` when no signal was added or
+    /// none tested (no activity model, a forced count).
+    pub activity_delta_bic: Option<f64>,
+    /// With an activity model, the other peaks tried and not added this round:
+    /// `(period [d], BIC gain)`; a gain below [`ACTIVITY_SEARCH_BIC`] means the activity
+    /// model explains the peak.
+    pub activity_rejected: Vec<(f64, f64)>,
 }
 
 /// Result of the search: the final joint fit and each round's periodogram.
@@ -63,6 +81,80 @@ pub struct Search {
     /// Estimated time that saved, s: the spared starts at this search's mean time per
     /// optimiser start.
     pub saved_s: f64,
+}
+
+/// BIC improvement a new signal must bring under an activity model to be kept: 10, "very
+/// strong" evidence on the scale of Kass & Raftery (1995, JASA 90, 773).
+pub const ACTIVITY_SEARCH_BIC: f64 = 10.0;
+
+/// Peaks of each residual periodogram (highest first, below the false-alarm threshold,
+/// at least one resolution element apart) tried in turn under an activity model.
+pub const ACTIVITY_SEARCH_PEAKS: usize = 10;
+
+/// Work budget of [`activity_periodogram`], floating-point operations: above it the
+/// frequency grid is thinned (about a second on one core).
+const ACTIVITY_PERIODOGRAM_FLOPS: f64 = 2e9;
+
+/// Likelihood-ratio periodogram under `fit`'s activity model: at each frequency the gain
+/// in ln L from a sinusoid added to the mean model with the covariance `K` held,
+/// `ΔlnL = ½ bᵀA⁻¹b` with `b = Xᵀα`, `α = K⁻¹r`, `A = XᵀK⁻¹X` and `X` the cosine and
+/// sine at the RV epochs (zero at the joint model's indicator points): generalised least
+/// squares, the correlated-noise form of the floating-mean periodogram (Zechmeister &
+/// Kürster 2009 with `K` for the diagonal weights). Two solves per frequency, so on a
+/// dense factor the grid is thinned to [`ACTIVITY_PERIODOGRAM_FLOPS`]. Returns the gains
+/// and the grid they are on; `None` without an activity model.
+fn activity_periodogram(fit: &Fit, set: &RvSet, grid: &Grid) -> Option<(Vec<f64>, Grid)> {
+    let (factor, r) = fit.activity_factor(set)?;
+    let m = r.len();
+    let per_frequency = match factor {
+        Factor::Dense(_) => 4.0 * (m * m) as f64,
+        Factor::Semiseparable(_) => 40.0 * m as f64,
+    };
+    let stride = (grid.n as f64 * per_frequency / ACTIVITY_PERIODOGRAM_FLOPS)
+        .ceil()
+        .max(1.0) as usize;
+    let coarse = Grid {
+        fmin: grid.fmin,
+        df: grid.df * stride as f64,
+        n: grid.n.div_ceil(stride),
+    };
+    let alpha = factor.solve(&r);
+    let gains = (0..coarse.n)
+        .into_par_iter()
+        .map(|j| {
+            let w = std::f64::consts::TAU * coarse.frequency(j);
+            let mut c = vec![0.0; m];
+            let mut s = vec![0.0; m];
+            for (i, &t) in set.time_d.iter().enumerate() {
+                (s[i], c[i]) = (w * t).sin_cos();
+            }
+            let (kc, ks) = (factor.solve(&c), factor.solve(&s));
+            let dot = |a: &[f64], b: &[f64]| a.iter().zip(b).map(|(x, y)| x * y).sum::<f64>();
+            let (bc, bs) = (dot(&c, &alpha), dot(&s, &alpha));
+            let (acc, acs, ass) = (dot(&c, &kc), dot(&c, &ks), dot(&s, &ks));
+            let det = acc * ass - acs * acs;
+            if det > 0.0 {
+                0.5 * (ass * bc * bc - 2.0 * acs * bc * bs + acc * bs * bs) / det
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    Some((gains, coarse))
+}
+
+/// A signal tried in one round of the search.
+struct Trial {
+    /// BIC of the fit without it minus that with it.
+    gain: f64,
+    /// The periodogram peak it started from.
+    peak: Peak,
+    /// All signals with it.
+    planets: Vec<PlanetSpec>,
+    /// Their joint fit.
+    fit: Fit,
+    /// Label of the warm planet it started from.
+    warm: Option<String>,
 }
 
 /// Label for a new signal: the first of b, c, d, … not in use.
@@ -144,43 +236,99 @@ pub fn search_warm(
             &grid,
             periodogram::Method::FAST,
         )?;
-        let peak = pg.peaks(1, 0.0).into_iter().next();
-        let wanted = planets.len() < limit;
-        let accepted = wanted && peak.is_some_and(|p| forced || p.fap < settings.fap_threshold);
-        steps.push(SearchStep {
-            periodogram: pg,
-            peak,
-            accepted,
-        });
-        let (true, Some(peak)) = (accepted, peak) else {
-            break;
+        let testing = settings.options.activity != Activity::None && !forced;
+        let strongest = pg.peaks(1, 0.0).into_iter().next();
+        // With an activity model the candidates come from the periodogram under it (the
+        // strongest one for a requested number of signals).
+        let n_candidates = if testing { ACTIVITY_SEARCH_PEAKS } else { 1 };
+        let peaks = match activity_periodogram(&current, set, &grid) {
+            Some((gain, coarse)) => local_maxima(&gain, &coarse, n_candidates, 1.0 / span, true)
+                .into_iter()
+                .map(|j| {
+                    let f = coarse.frequency(j);
+                    let at = ((f - grid.fmin) / grid.df).round() as usize;
+                    pg.peak_at(at.min(grid.n - 1))
+                })
+                .collect(),
+            None => strongest.into_iter().collect::<Vec<Peak>>(),
         };
+        let wanted = planets.len() < limit;
+        // With an activity model the BIC decides, not the false-alarm probability of a
+        // periodogram that still holds the activity signal.
+        let qualifies = |p: &Peak| forced || testing || p.fap < settings.fap_threshold;
+        let accepted = wanted && strongest.as_ref().is_some_and(qualifies);
+        let mut step = SearchStep {
+            periodogram: pg,
+            peak: strongest,
+            accepted,
+            activity_delta_bic: None,
+            activity_rejected: Vec::new(),
+        };
+        if !accepted {
+            steps.push(step);
+            break;
+        }
         let label = next_label(&planets);
-        let previous = warm.iter().find(|w| {
-            (1.0 / w.period_d - peak.frequency).abs() < 1.0 / span && !used.contains(&w.label)
-        });
-        let spec = match previous {
-            Some(w) => {
-                warm_started.push(label.clone());
-                used.push(w.label.clone());
-                PlanetSpec {
+        let mut chosen = None;
+        for peak in peaks.into_iter().filter(qualifies) {
+            let previous = warm.iter().find(|w| {
+                (1.0 / w.period_d - peak.frequency).abs() < 1.0 / span && !used.contains(&w.label)
+            });
+            let spec = match previous {
+                Some(w) => PlanetSpec {
                     label: label.clone(),
                     ..w.clone()
+                },
+                None => {
+                    let sine = periodogram::sinusoid_at(
+                        &residual,
+                        &current.params.jitters_mps,
+                        peak.frequency,
+                    )?;
+                    PlanetSpec::from_sinusoid(&sine, &label)
                 }
+            };
+            // Start the known signals where the last fit left them.
+            let mut next = current.planet_specs();
+            next.push(spec);
+            let fit = timed_fit(&next)?;
+            let trial = Trial {
+                gain: current.bic() - fit.bic(),
+                peak,
+                planets: next,
+                fit,
+                warm: previous.map(|w| w.label.clone()),
+            };
+            if !testing {
+                chosen = Some(trial);
+                break;
             }
-            None => {
-                let sine = periodogram::sinusoid_at(
-                    &residual,
-                    &current.params.jitters_mps,
-                    peak.frequency,
-                )?;
-                PlanetSpec::from_sinusoid(&sine, &label)
-            }
+            let best = trial.gain >= ACTIVITY_SEARCH_BIC
+                && chosen.as_ref().is_none_or(|c: &Trial| trial.gain > c.gain);
+            let passed = if best {
+                chosen.replace(trial)
+            } else {
+                Some(trial)
+            };
+            step.activity_rejected
+                .extend(passed.map(|t| (t.peak.period, t.gain)));
+        }
+        let Some(trial) = chosen else {
+            step.accepted = false;
+            steps.push(step);
+            break;
         };
-        // Start the known signals where the last fit left them.
-        planets = current.planet_specs();
-        planets.push(spec);
-        current = timed_fit(&planets)?;
+        if testing {
+            step.activity_delta_bic = Some(trial.gain);
+        }
+        step.peak = Some(trial.peak);
+        if let Some(w) = trial.warm {
+            warm_started.push(label);
+            used.push(w);
+        }
+        steps.push(step);
+        planets = trial.planets;
+        current = trial.fit;
     }
     // Each warm planet with an eccentricity spared the extra starts of a circular one.
     let eccentric = settings.options.shape == OrbitShape::Eccentric;

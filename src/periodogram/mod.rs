@@ -251,22 +251,25 @@ impl Periodogram {
     pub fn peaks(&self, n: usize, min_sep: f64) -> Vec<Peak> {
         local_maxima(&self.power, &self.grid, n, min_sep, true)
             .into_iter()
-            .map(|j| {
-                let f = self.grid.frequency(j);
-                Peak {
-                    frequency: f,
-                    period: 1.0 / f,
-                    power: self.power[j],
-                    fap: self.fap(self.power[j]),
-                }
-            })
+            .map(|j| self.peak_at(j))
             .collect()
+    }
+
+    /// The grid's `j`-th frequency as a [`Peak`] (its power and false-alarm probability).
+    pub fn peak_at(&self, j: usize) -> Peak {
+        let f = self.grid.frequency(j);
+        Peak {
+            frequency: f,
+            period: 1.0 / f,
+            power: self.power[j],
+            fap: self.fap(self.power[j]),
+        }
     }
 }
 
 /// Indices of up to `n` highest local maxima of `p` on `grid`, highest first, at least
 /// `min_sep` (1/day) apart; the ends of the grid count only when `ends` is set.
-fn local_maxima(p: &[f64], grid: &Grid, n: usize, min_sep: f64, ends: bool) -> Vec<usize> {
+pub fn local_maxima(p: &[f64], grid: &Grid, n: usize, min_sep: f64, ends: bool) -> Vec<usize> {
     let last = p.len().saturating_sub(1);
     let mut idx: Vec<usize> = (0..p.len())
         .filter(|&j| {

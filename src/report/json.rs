@@ -176,7 +176,21 @@ pub fn results_json(a: &Analysis) -> Value {
         .iter()
         .filter_map(|s| {
             s.peak.map(|p| {
-                json!({"period_d": p.period, "power": p.power, "fap": p.fap, "accepted": s.accepted})
+                let mut v = json!({"period_d": p.period, "power": p.power, "fap": p.fap, "accepted": s.accepted});
+                if let Value::Object(map) = &mut v {
+                    if let Some(d) = s.activity_delta_bic {
+                        map.insert("activity_delta_bic".into(), json!(d));
+                    }
+                    if !s.activity_rejected.is_empty() {
+                        let rejected: Vec<Value> = s
+                            .activity_rejected
+                            .iter()
+                            .map(|(p, d)| json!({"period_d": p, "delta_bic": d}))
+                            .collect();
+                        map.insert("activity_rejected".into(), json!(rejected));
+                    }
+                }
+                v
             })
         })
         .collect();

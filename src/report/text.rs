@@ -6,6 +6,7 @@ use super::table::{round_to_uncertainty, significant};
 use crate::audit::Audit;
 use crate::derive::PlanetDerived;
 use crate::derive::profile::DensityProfile;
+use crate::fit::ACTIVITY_SEARCH_BIC;
 use crate::pipeline::Analysis;
 use crate::summary::Summary;
 
@@ -81,18 +82,27 @@ pub fn summary_text(a: &Analysis) -> String {
     s.push_str(&data_changes_text(a));
     let _ = writeln!(s, "\nsignal search (GLS of residuals, Baluev FAP):");
     for step in &a.search.steps {
+        for (period, gain) in &step.activity_rejected {
+            let why = if *gain < ACTIVITY_SEARCH_BIC {
+                format!("explained by the activity model (ΔBIC {gain:.1} < {ACTIVITY_SEARCH_BIC})")
+            } else {
+                format!("tried (ΔBIC {gain:.1}); another peak's signal lowers the BIC more")
+            };
+            let _ = writeln!(s, "  peak at {period:>10.4} d  {why}");
+        }
         if let Some(p) = step.peak {
+            let outcome = match (step.accepted, step.activity_delta_bic) {
+                (true, Some(d)) => format!("→ fitted (ΔBIC {d:.1} with the activity model)"),
+                (true, None) => "→ fitted".to_string(),
+                (false, _) if !step.activity_rejected.is_empty() => {
+                    "→ stop: no peak's signal beats the activity model".to_string()
+                }
+                (false, _) => "→ stop".to_string(),
+            };
             let _ = writeln!(
                 s,
-                "  peak at {:>10.4} d  power {:.3}  FAP {:.2e}  {}",
-                p.period,
-                p.power,
-                p.fap,
-                if step.accepted {
-                    "→ fitted"
-                } else {
-                    "→ stop"
-                }
+                "  peak at {:>10.4} d  power {:.3}  FAP {:.2e}  {outcome}",
+                p.period, p.power, p.fap,
             );
         }
     }
