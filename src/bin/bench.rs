@@ -5,7 +5,8 @@
 //! throughput (targets per minute).
 //!
 //! Run with `cargo run --release --bin bench [-- DEMO.toml]` (default
-//! `data-demo/ostrel-12.toml`); `-- --gp` runs the GP solver timings alone.
+//! `data-demo/ostrel-12.toml`); `-- --gp` runs the GP solver and joint-model timings
+//! alone.
 //!
 //! On Linux the figures are also given per second on a CPU (this thread's or the
 //! process's CPU time from `/proc`), which other work on the machine inflates far less
@@ -263,6 +264,80 @@ fn gp_scaling() {
     );
 }
 
+/// Seconds (CPU where known, else wall) per call of `work`, repeated for at least
+/// `min_seconds` of wall time.
+fn seconds_per_call(min_seconds: f64, mut work: impl FnMut()) -> f64 {
+    let mut calls = 0usize;
+    let (wall, cpu) = timed(|| {
+        let start = Instant::now();
+        while calls == 0 || start.elapsed().as_secs_f64() < min_seconds {
+            work();
+            calls += 1;
+        }
+    });
+    cpu.unwrap_or(wall) / calls as f64
+}
+
+/// The dense pieces of the joint activity model: `K⁻¹` from a Cholesky factor by
+/// [`heft::gp::spd_inverse`] against nalgebra's solve against the identity (same run),
+/// and one log-likelihood and one analytic gradient of the joint model of N RVs and N
+/// indicator values.
+fn joint_timing() {
+    use heft::gp::{Coupling, JointKernel, JointPoints};
+    println!("joint activity model (N RVs + N indicator values, dense):");
+    for n in [110, 500] {
+        let set = data(n);
+        let m = 2 * n;
+        let time_d: Vec<f64> = set.time_d.iter().chain(&set.time_d).copied().collect();
+        let series: Vec<usize> = (0..m).map(|i| usize::from(i >= n)).collect();
+        let white = vec![2.25; m];
+        let r: Vec<f64> = set.rv_mps.iter().chain(&set.rv_mps).copied().collect();
+        let latent = Term::QuasiPeriodic {
+            amplitude_mps: 1.0,
+            evolution_d: 40.0,
+            period_d: 13.0,
+            smoothness: 0.5,
+        };
+        let couplings = vec![
+            Coupling {
+                level: 4.0,
+                slope: 10.0,
+            },
+            Coupling {
+                level: 2.0,
+                slope: 0.0,
+            },
+        ];
+        let kernel = JointKernel::new(latent, couplings).expect("valid kernel");
+        let points = JointPoints {
+            time_d: &time_d,
+            series: &series,
+            white: &white,
+        };
+        let chol = nalgebra::Cholesky::new(points.covariance(&kernel)).expect("positive definite");
+        let ours = seconds_per_call(0.5, || {
+            black_box(heft::gp::spd_inverse(black_box(&chol)));
+        });
+        let general = seconds_per_call(0.5, || {
+            black_box(black_box(&chol).inverse());
+        });
+        let ln_l = seconds_per_call(0.5, || {
+            black_box(points.log_likelihood(&kernel, black_box(&r)).ok());
+        });
+        let grad = seconds_per_call(0.5, || {
+            black_box(points.gradient(&kernel, black_box(&r)).ok());
+        });
+        println!(
+            "  N = {n:>4} ({m} rows): K⁻¹ {:.2} ms vs nalgebra's {:.2} ms ({:.1} ×); log-likelihood {:.2} ms, gradient {:.2} ms",
+            1e3 * ours,
+            1e3 * general,
+            general / ours,
+            1e3 * ln_l,
+            1e3 * grad
+        );
+    }
+}
+
 /// Wall time of the demo's audit (maximum-likelihood fit, then the audit), per part.
 fn audit_timing(demo: &str) {
     let mut target = match heft::target::load(std::path::Path::new(demo)) {
@@ -375,7 +450,8 @@ fn main() {
         .unwrap_or_else(|| "data-demo/ostrel-12.toml".into());
     if demo == "--gp" {
         println!("load average at start {}", load_average());
-        return gp_scaling();
+        gp_scaling();
+        return joint_timing();
     }
     let profile = if cfg!(debug_assertions) {
         "dev profile: heft at opt-level 1, dependencies at 3"

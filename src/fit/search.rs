@@ -351,3 +351,79 @@ pub fn search_warm(
         saved_s,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::gp::{Points, rotation_prior};
+
+    /// The likelihood-ratio periodogram against its definition: at each frequency, the
+    /// generalised-least-squares sinusoid `β = (XᵀK⁻¹X)⁻¹XᵀK⁻¹r` subtracted from the
+    /// residuals raises the dense GP log-likelihood (Rasmussen & Williams 2006, eq. 2.30)
+    /// by exactly the periodogram's gain.
+    #[test]
+    fn activity_periodogram_is_the_likelihood_gain_of_a_sinusoid() {
+        let n = 40;
+        let t: Vec<f64> = (0..n)
+            .map(|i| 3.1 * i as f64 + 1.7 * (i as f64 * 1.3).sin())
+            .collect();
+        let rv: Vec<f64> = t
+            .iter()
+            .map(|&x| 6.0 * (x / 2.3).sin() + 3.0 * (x / 6.1).cos())
+            .collect();
+        let set = RvSet::from_columns(
+            "p",
+            0.0,
+            t.clone(),
+            rv,
+            vec![1.5; n],
+            vec![0; n],
+            vec!["a".into()],
+        );
+        let options = FitOptions {
+            shape: OrbitShape::Circular,
+            trend: 0,
+            activity: Activity::QuasiPeriodic,
+            rotation_d: Some(rotation_prior(14.0, 0.0)),
+            ..FitOptions::default()
+        };
+        let f = fit(&set, &[], &options).unwrap();
+        let grid = Grid::new(0.01, 0.4, 60).unwrap();
+        let (gain, coarse) = activity_periodogram(&f, &set, &grid).unwrap();
+        assert_eq!(coarse, grid);
+        let kernel = f.layout.kernel(&f.theta).unwrap();
+        let white = crate::fit::layout::white_variances(&f.params, &set);
+        let ones = vec![1.0; n];
+        let points = Points {
+            time_d: &t,
+            white: &white,
+            scale: &ones,
+        };
+        let k = points.covariance(&kernel);
+        let kinv = k.clone().try_inverse().unwrap();
+        let r = nalgebra::DVector::from_vec(f.params.residuals(&set));
+        let ln_l = |x: &nalgebra::DVector<f64>| {
+            points
+                .log_likelihood(&kernel, crate::gp::Solver::Dense, x.as_slice())
+                .unwrap()
+        };
+        for j in [0, 7, 23, 59] {
+            let w = std::f64::consts::TAU * grid.frequency(j);
+            let x = nalgebra::DMatrix::from_fn(n, 2, |i, c| {
+                if c == 0 {
+                    (w * t[i]).cos()
+                } else {
+                    (w * t[i]).sin()
+                }
+            });
+            let a = x.transpose() * &kinv * &x;
+            let beta = a.try_inverse().unwrap() * x.transpose() * &kinv * &r;
+            let direct = ln_l(&(&r - &x * beta)) - ln_l(&r);
+            assert!(
+                (gain[j] - direct).abs() < 1e-8 * direct.abs().max(1.0),
+                "{j}: {} vs {direct}",
+                gain[j]
+            );
+        }
+    }
+}
