@@ -182,8 +182,9 @@ fn joint_model_recovers_planet_and_couplings() {
 }
 
 /// An indicator that falls as the activity rises (level −2): the likelihood is the same
-/// under `G → −G`, and heft reports the couplings with the first indicator's level
-/// positive, so the RV couplings come out negated (−6 m/s, −10 m/s·d) within 3σ.
+/// under `G → −G`, and heft reports the couplings with the one farthest from zero (in
+/// units of its scale; here the indicator's level) positive, so the RV couplings come out
+/// negated (−6 m/s, −10 m/s·d) within 3σ.
 #[test]
 fn anticorrelated_indicator_is_reported_with_positive_level() {
     let set = realisation(3, -WIDTH_LEVEL);

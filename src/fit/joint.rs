@@ -35,6 +35,10 @@ pub struct JointLayout {
     pub scale: Vec<f64>,
     /// Bounds of each entry's default sampling prior (uniform).
     pub prior_bounds: Vec<(f64, f64)>,
+    /// The coupling (block index) whose sign is held positive in reported values and in
+    /// the sampler ([`JointLayout::canonical`]); the first indicator's level until a fit
+    /// picks the best-determined one ([`JointLayout::pick_sign_reference`]).
+    pub sign_reference: usize,
     /// Name of each entry, e.g. `coupling.rv.level_mps`, `coupling.rv.slope_mps_d` (m/s × d),
     /// `coupling.width.slope_d` (the indicator's unit × d), `indicator_offset.width.Quill`.
     pub names: Vec<String>,
@@ -103,6 +107,7 @@ impl JointLayout {
             start: Vec::new(),
             scale: Vec::new(),
             prior_bounds: Vec::new(),
+            sign_reference: 2,
             names: Vec::new(),
         };
         let rv_sd = rv_sd_mps.max(1e-3);
@@ -189,6 +194,19 @@ impl JointLayout {
         2 * (1 + self.columns.len())
     }
 
+    /// Makes the coupling farthest from zero in units of its scale (at the block values
+    /// `block`) the sign reference, so that the sampler's half of the mirror-symmetric
+    /// posterior (that coupling ≥ 0) stays away from the plane where the halves meet.
+    pub fn pick_sign_reference(&mut self, block: &[f64]) {
+        self.sign_reference = (0..self.n_couplings())
+            .max_by(|&a, &b| {
+                (block[a] / self.scale[a])
+                    .abs()
+                    .total_cmp(&(block[b] / self.scale[b]).abs())
+            })
+            .unwrap_or(2);
+    }
+
     /// What block entry `q` is.
     pub fn entry(&self, q: usize) -> JointEntry {
         let (c, g) = (self.n_couplings(), self.groups.len());
@@ -202,11 +220,11 @@ impl JointLayout {
     }
 
     /// The equivalent block that is reported: every coupling's sign flipped when the
-    /// first indicator's level is negative (`G → −G` leaves the likelihood unchanged; the
-    /// first indicator then rises with the latent process) and jitters as absolute values.
+    /// [`JointLayout::sign_reference`] coupling is negative (`G → −G` leaves the likelihood
+    /// unchanged) and jitters as absolute values.
     pub fn canonical(&self, block: &mut [f64]) {
         let n = self.n_couplings();
-        if block.get(2).is_some_and(|a| *a < 0.0) {
+        if block.get(self.sign_reference).is_some_and(|a| *a < 0.0) {
             block[..n].iter_mut().for_each(|x| *x = -*x);
         }
         let jitters = n + self.groups.len();

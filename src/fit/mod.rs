@@ -478,8 +478,10 @@ pub fn fit(set: &RvSet, planets: &[PlanetSpec], options: &FitOptions) -> Result<
         (theta, value) = optimize::minimise(&objective, &theta, &scale, 4);
         n_starts += 1;
     }
-    if let Some(joint) = &layout.joint {
-        joint.canonical(&mut theta[layout.joint_range()]);
+    let block = layout.joint_range();
+    if let Some(joint) = layout.joint.as_mut() {
+        joint.pick_sign_reference(&theta[block.clone()]);
+        joint.canonical(&mut theta[block]);
     }
     if !value.is_finite() {
         return Err(FitError::NoFiniteLikelihood);

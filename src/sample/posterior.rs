@@ -74,7 +74,8 @@ impl PriorSet {
     /// - per-instrument activity amplitude factors: log-uniform on
     ///   [`crate::gp::SCALE_BOUNDS`];
     /// - the joint model's couplings, indicator offsets and jitters: uniform
-    ///   ([`crate::fit::JointLayout::new`]), widened to 3 × the fitted value if needed.
+    ///   ([`crate::fit::JointLayout::new`]), widened to 3 × the fitted value if needed; the
+    ///   sign reference coupling from 0 only (the likelihood is symmetric under G → −G).
     pub fn defaults(set: &RvSet, fit: &Fit, period_range_d: (f64, f64)) -> PriorSet {
         let layout = &fit.layout;
         let n_inst = set.n_instruments();
@@ -203,7 +204,11 @@ impl PriorSet {
                         let b = layout.joint.as_ref().expect("joint roles have the model");
                         let (lo, hi) = b.prior_bounds[q];
                         let reach = 3.0 * theta[j].abs();
-                        let (lo, hi) = if lo < 0.0 {
+                        // The sign reference coupling is ≥ 0 (the fit's is): one half of
+                        // the posterior, which is symmetric under G → −G.
+                        let (lo, hi) = if q == b.sign_reference {
+                            (0.0, hi.max(reach))
+                        } else if lo < 0.0 {
                             (lo.min(-reach), hi.max(reach))
                         } else {
                             (lo, hi.max(reach))
