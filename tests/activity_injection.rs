@@ -8,8 +8,12 @@
 //! MNRAS 452, 2269, eq. 4) at the epochs (Rasmussen & Williams 2006, *Gaussian Processes
 //! for Machine Learning*, §A.2: x = L z, z standard normal), not from heft's fitting code.
 
+mod common;
+
+use common::circular_start;
+
 use heft::data::{Indicator, RvSet};
-use heft::fit::{self, FitOptions, PlanetSpec};
+use heft::fit::{self, FitOptions};
 use heft::gp::{Activity, Kernel, Points, Term};
 use heft::sample::{self, PriorSet, SamplerSettings};
 use heft::target::OrbitShape;
@@ -119,20 +123,6 @@ fn realisation(seed: u64) -> RvSet {
     injected(&mut rng, t, &activity, phase)
 }
 
-/// The fitted planet: circular, free period starting at the truth, K starting at 3 m/s.
-fn planet() -> PlanetSpec {
-    PlanetSpec {
-        period_d: P_TRUE,
-        fix_period: false,
-        k_mps: 3.0,
-        tc_d: 0.0,
-        ecc_vector: (0.0, 0.0),
-        period_prior: None,
-        tc_prior: None,
-        label: "b".into(),
-    }
-}
-
 /// How a set of K estimates `(value, 1σ)` (m/s) meets the truth.
 struct Tally {
     /// Estimates within 1σ of the truth.
@@ -200,7 +190,7 @@ fn gp_recovers_k_where_the_white_noise_fit_is_biased() {
         rotation_d: Some(heft::gp::rotation_prior(P_ROT, 0.0)),
         ..white.clone()
     };
-    let spec = [planet()];
+    let spec = [circular_start(P_TRUE, 3.0)];
     let (mut k_white, mut k_gp) = (Vec::new(), Vec::new());
     println!("realisation (points): K white ± σ (period) | K GP ± σ (period), truth {K_TRUE} m/s");
     for seed in 1000..1040 {
@@ -289,7 +279,7 @@ fn indicator_training_gives_priors_for_the_rv_fit() {
     assert!((p - P_ROT).abs() < 3.0 * sp, "{p} ± {sp}");
     let f = fit::fit(
         &set,
-        &[planet()],
+        &[circular_start(P_TRUE, 3.0)],
         &FitOptions {
             activity_priors: priors,
             ..options.clone()
@@ -327,7 +317,7 @@ fn sampler_draws_the_activity_hyperparameters() {
         rotation_d: Some(heft::gp::rotation_prior(P_ROT, 0.0)),
         ..FitOptions::default()
     };
-    let f = fit::fit(&set, &[planet()], &options).unwrap();
+    let f = fit::fit(&set, &[circular_start(P_TRUE, 3.0)], &options).unwrap();
     let priors = PriorSet::defaults(&set, &f, (1.0, 160.0));
     let rotation = priors
         .entries
@@ -404,8 +394,8 @@ fn per_instrument_amplitudes_are_recovered() {
             activity_per_instrument: true,
             ..shared.clone()
         };
-        let a = fit::fit(&set, &[planet()], &shared).unwrap();
-        let b = fit::fit(&set, &[planet()], &own).unwrap();
+        let a = fit::fit(&set, &[circular_start(P_TRUE, 3.0)], &shared).unwrap();
+        let b = fit::fit(&set, &[circular_start(P_TRUE, 3.0)], &own).unwrap();
         let k = |f: &fit::Fit| {
             let s = f.planets[0].k_mps;
             (s.value, 0.5 * (s.minus + s.plus))

@@ -2,15 +2,11 @@
 //! table, a broken target is reported while the others finish, and non-target TOML files
 //! are skipped.
 
-use std::path::Path;
-use std::process::Command;
+mod common;
 
-fn heft(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .output()
-        .unwrap()
-}
+use common::heft;
+
+use std::path::Path;
 
 /// An invented single-planet target: 40 epochs of a sinusoid with deterministic noise.
 fn write_target(dir: &Path, i: usize) {

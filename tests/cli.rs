@@ -1,23 +1,13 @@
 //! The command-line contract of design.md, run on the built binary in temporary folders.
 
+mod common;
+
+use common::{assert_refused, heft, repo, stderr};
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Output;
 
 use serde_json::Value;
-
-fn heft(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn repo(p: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join(p)
-        .display()
-        .to_string()
-}
 
 /// The JSON printed by a command that finished: exit 0, or 4 with a verdict that is not
 /// `robust` (design.md exit codes).
@@ -36,10 +26,6 @@ fn json_of(out: &Output) -> Value {
         "exit status and verdict {verdict:?} agree"
     );
     doc
-}
-
-fn stderr(out: &Output) -> String {
-    String::from_utf8_lossy(&out.stderr).into_owned()
 }
 
 /// An estimated quantity is {value, minus, plus} (design.md).
@@ -363,8 +349,7 @@ fn bad_inputs_exit_2_with_a_clear_message() {
         "name = \"x\"\nmistake = 1\n[star]\nmass_msun = 1.0\n[[data]]\nfile = \"a.csv\"\n",
     );
     let out = heft(&["run", target.to_str().unwrap()]);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("mistake"), "{}", stderr(&out));
+    assert_refused(&out, "mistake");
     // Periodogram: inverted range.
     let ok = write(d, "ok.csv", &format!("time,rv,rv_err\n{good_rows}"));
     let out = heft(&[
@@ -377,8 +362,7 @@ fn bad_inputs_exit_2_with_a_clear_message() {
         "--nfreq",
         "10",
     ]);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("fmax"), "{}", stderr(&out));
+    assert_refused(&out, "fmax");
 }
 
 /// `--sample`: values from posterior draws and a `diagnostics` block (design.md); the
@@ -772,19 +756,15 @@ fn fit_with_an_activity_model() {
     assert!(none.get("activity").is_none());
 
     let out = heft(&args("quasiperiodic"));
-    assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("--rotation-d"), "{}", stderr(&out));
+    assert_refused(&out, "--rotation-d");
     let out = heft(&args("spots"));
-    assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("spots"), "{}", stderr(&out));
+    assert_refused(&out, "spots");
     let mut unknown = args("quasiperiodic");
     unknown.extend(["--rotation-d", "17.0", "--activity-indicator", "s_index"]);
     let out = heft(&unknown);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        stderr(&out).contains("activity indicator `s_index`: no such indicator column"),
-        "{}",
-        stderr(&out)
+    assert_refused(
+        &out,
+        "activity indicator `s_index`: no such indicator column",
     );
 }
 
@@ -831,12 +811,7 @@ fn fit_with_the_joint_activity_model() {
         assert!(is_estimate(&act["parameters"][key]), "{key}: {act}");
     }
     let out = heft(&args("joint"));
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        stderr(&out).contains("--activity-indicator"),
-        "{}",
-        stderr(&out)
-    );
+    assert_refused(&out, "--activity-indicator");
     let mut several = args("quasiperiodic");
     several.extend([
         "--activity-indicator",
@@ -845,12 +820,7 @@ fn fit_with_the_joint_activity_model() {
         "line_width",
     ]);
     let out = heft(&several);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        stderr(&out).contains("only the joint activity model takes more than one"),
-        "{}",
-        stderr(&out)
-    );
+    assert_refused(&out, "only the joint activity model takes more than one");
 }
 
 /// `--activity-per-instrument`: with two spectrographs the second one's activity amplitude
@@ -885,17 +855,11 @@ fn fit_with_per_instrument_activity_amplitudes() {
     assert!(is_estimate(scale), "{}", doc["activity"]);
     assert!(doc["activity"]["parameters"].get("scale.quill").is_none());
     let out = heft(&args("joint"));
-    assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("per-instrument"), "{}", stderr(&out));
+    assert_refused(&out, "per-instrument");
     let mut none = args("none");
     none.truncate(none.len() - 2);
     let out = heft(&none);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        stderr(&out).contains("--activity-per-instrument needs an activity model"),
-        "{}",
-        stderr(&out)
-    );
+    assert_refused(&out, "--activity-per-instrument needs an activity model");
 }
 
 /// The audit compares K and mass with and without the activity GP: with a rotation period

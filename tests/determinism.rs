@@ -1,7 +1,10 @@
 //! The same inputs and seed give byte-identical results.json across thread counts and
 //! reruns; the run's start time is kept in one field, `created_utc` of manifest.json.
 
-use std::path::Path;
+mod common;
+
+use common::demo_with;
+
 use std::process::Command;
 
 use serde_json::Value;
@@ -9,18 +12,9 @@ use serde_json::Value;
 #[test]
 fn results_are_byte_identical_across_threads_and_reruns() {
     let dir = tempfile::tempdir().unwrap();
-    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("data-demo");
-    for name in ["ostrel-12.toml", "quill.csv", "tarn.txt", "fennick.tsv"] {
-        std::fs::copy(demo.join(name), dir.path().join(name)).unwrap();
-    }
-    let target = dir.path().join("ostrel-12.toml");
-    let text = std::fs::read_to_string(&target).unwrap();
     // Sampling (cut at 2000 steps: the draws, not convergence, are what is compared),
     // the periodogram report with its bootstrap; the audit is left out for time.
-    let settings = "[settings]\nsample = true\nmax_steps = 2000\naudit = false";
-    // (The demo's own `sample = true` is dropped: keys may not repeat.)
-    let text = text.replace("sample = true\n", "");
-    std::fs::write(&target, text.replace("[settings]", settings)).unwrap();
+    let target = demo_with(dir.path(), "sample = true\nmax_steps = 2000\naudit = false");
     let run = |threads: &str, out: &str| {
         let o = Command::new(env!("CARGO_BIN_EXE_heft"))
             .args(["run", target.to_str().unwrap(), "--out"])

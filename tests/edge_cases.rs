@@ -4,20 +4,16 @@
 //! in different day-based time scales, and likelihoods that overflow. Data here are
 //! invented injections (model curves with deterministic noise).
 
+mod common;
+
+use common::heft;
+
 use std::f64::consts::TAU;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
 use heft::data::{DataSpec, RvUnit};
 use heft::orbit::Orbit;
 use serde_json::Value;
-
-fn heft(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .output()
-        .unwrap()
-}
 
 /// Deterministic noise in [−1, 1] (a fixed sequence, so failures reproduce).
 fn noise(i: usize) -> f64 {

@@ -8,60 +8,17 @@
 //! for real on a size-limited / read-only tmpfs where the machine allows mounting one
 //! (skipped with the reason printed otherwise).
 
+mod common;
+
+use common::{heft_env, quick_demo, snapshot, stderr};
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn heft_env(args: &[&str], env: &[(&str, &str)]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .envs(env.iter().copied())
-        .output()
-        .unwrap()
-}
-
-fn stderr(out: &Output) -> String {
-    String::from_utf8_lossy(&out.stderr).into_owned()
-}
-
-/// The demo target and its data in `to`, audit off (these tests are about files, not
-/// the analysis).
-fn copy_demo(to: &Path) -> PathBuf {
-    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("data-demo");
-    for name in ["ostrel-12.toml", "quill.csv", "tarn.txt", "fennick.tsv"] {
-        std::fs::copy(demo.join(name), to.join(name)).unwrap();
-    }
-    let target = to.join("ostrel-12.toml");
-    // Without the audit and the sampler: these tests are about writing the run folder.
-    let mut text = std::fs::read_to_string(&target)
-        .unwrap()
-        .replace("sample = true", "sample = false");
-    text.push_str("audit = false\n");
-    std::fs::write(&target, text).unwrap();
-    target
-}
-
-/// Every file under `dir` with its bytes, sorted.
-fn snapshot(dir: &Path) -> Vec<(PathBuf, Vec<u8>)> {
-    let mut files = Vec::new();
-    let mut stack = vec![dir.to_path_buf()];
-    while let Some(d) = stack.pop() {
-        for e in std::fs::read_dir(&d).unwrap() {
-            let p = e.unwrap().path();
-            if p.is_dir() {
-                stack.push(p);
-            } else {
-                files.push((p.clone(), std::fs::read(&p).unwrap()));
-            }
-        }
-    }
-    files.sort();
-    files
-}
+use std::process::Command;
 
 /// A first successful run of the demo in a fresh folder: (folder, target file).
 fn first_run() -> (tempfile::TempDir, PathBuf) {
     let dir = tempfile::tempdir().unwrap();
-    let target = copy_demo(dir.path());
+    let target = quick_demo(dir.path());
     let out = heft_env(&["run", target.to_str().unwrap()], &[]);
     assert!(out.status.success(), "{}", stderr(&out));
     (dir, target)
@@ -214,7 +171,7 @@ impl Drop for Mount {
 #[test]
 fn real_full_disk_and_read_only_folder() {
     let dir = tempfile::tempdir().unwrap();
-    let target = copy_demo(dir.path());
+    let target = quick_demo(dir.path());
     let runs = dir.path().join("runs");
     // One demo run folder is about 2.8 MB.
     let mount = match Mount::tmpfs(&runs, "4m") {

@@ -1,37 +1,19 @@
 //! Reruns when new epochs arrive: earlier runs stay untouched, `runs/LATEST` moves, and
 //! `heft changes` reports the new epoch counts and the shifts.
 
+mod common;
+
+use common::{demo_with, heft, quick_demo, snapshot};
+
 use std::path::Path;
 use std::process::Command;
 
 use serde_json::Value;
 
-fn heft(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-/// The demo in `to`, with the audit and the sampler switched off (these tests are about
-/// run history; the last section of the demo target is `[settings]`).
-fn copy_demo(to: &Path) {
-    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("data-demo");
-    for name in ["ostrel-12.toml", "quill.csv", "tarn.txt", "fennick.tsv"] {
-        std::fs::copy(demo.join(name), to.join(name)).unwrap();
-    }
-    let target = to.join("ostrel-12.toml");
-    let mut text = std::fs::read_to_string(&target).unwrap();
-    assert!(text.contains("[settings]") && text.contains("sample = true"));
-    text = text.replace("sample = true", "sample = false");
-    text.push_str("audit = false\n");
-    std::fs::write(&target, text).unwrap();
-}
-
 #[test]
 fn new_epochs_leave_earlier_runs_intact_and_show_as_changes() {
     let dir = tempfile::tempdir().unwrap();
-    copy_demo(dir.path());
+    quick_demo(dir.path());
     let quill = dir.path().join("quill.csv");
     let full = std::fs::read_to_string(&quill).unwrap();
     let lines: Vec<&str> = full.lines().collect();
@@ -107,7 +89,7 @@ fn new_epochs_leave_earlier_runs_intact_and_show_as_changes() {
 #[test]
 fn changes_needs_two_runs() {
     let dir = tempfile::tempdir().unwrap();
-    copy_demo(dir.path());
+    quick_demo(dir.path());
     let target = dir.path().join("ostrel-12.toml");
     let out = heft(&["changes", target.to_str().unwrap()]);
     assert_eq!(out.status.code(), Some(2));
@@ -117,7 +99,7 @@ fn changes_needs_two_runs() {
 #[test]
 fn add_epochs_checks_against_the_target_and_edits_no_data_file() {
     let dir = tempfile::tempdir().unwrap();
-    copy_demo(dir.path());
+    quick_demo(dir.path());
     let quill = dir.path().join("quill.csv");
     let full = std::fs::read_to_string(&quill).unwrap();
     let lines: Vec<&str> = full.lines().collect();
@@ -133,13 +115,13 @@ fn add_epochs_checks_against_the_target_and_edits_no_data_file() {
     let target = dir.path().join("ostrel-12.toml");
     let (target, new_s) = (target.to_str().unwrap(), new.to_str().unwrap());
     let data_files = ["quill.csv", "tarn.txt", "fennick.tsv", "new-night.csv"];
-    let snapshot = || -> Vec<Vec<u8>> {
+    let data_bytes = || -> Vec<Vec<u8>> {
         data_files
             .iter()
             .map(|f| std::fs::read(dir.path().join(f)).unwrap())
             .collect()
     };
-    let before = snapshot();
+    let before = data_bytes();
 
     let out = heft(&[
         "add-epochs",
@@ -159,7 +141,7 @@ fn add_epochs_checks_against_the_target_and_edits_no_data_file() {
     assert_eq!(doc["per_instrument"][0], serde_json::json!(["Quill", 76]));
     let copy = Path::new(doc["copy"].as_str().unwrap());
     assert!(copy.starts_with(dir.path().join("epochs")) && copy.exists());
-    assert_eq!(snapshot(), before, "no data file was edited");
+    assert_eq!(data_bytes(), before, "no data file was edited");
     let text = std::fs::read_to_string(target).unwrap();
     assert_eq!(text.matches("[[data]]").count(), 4);
 
@@ -203,7 +185,7 @@ fn add_epochs_checks_against_the_target_and_edits_no_data_file() {
 #[test]
 fn a_killed_run_leaves_no_complete_folder_and_earlier_runs_intact() {
     let dir = tempfile::tempdir().unwrap();
-    copy_demo(dir.path());
+    quick_demo(dir.path());
     let target = dir.path().join("ostrel-12.toml");
     let first = heft(&["run", target.to_str().unwrap()]);
     assert!(
@@ -212,23 +194,7 @@ fn a_killed_run_leaves_no_complete_folder_and_earlier_runs_intact() {
         String::from_utf8_lossy(&first.stderr)
     );
     let runs_dir = dir.path().join("runs");
-    let snapshot = || -> Vec<(std::path::PathBuf, Vec<u8>)> {
-        let mut files = Vec::new();
-        let mut stack = vec![runs_dir.clone()];
-        while let Some(d) = stack.pop() {
-            for e in std::fs::read_dir(&d).unwrap() {
-                let p = e.unwrap().path();
-                if p.is_dir() {
-                    stack.push(p);
-                } else {
-                    files.push((p.clone(), std::fs::read(&p).unwrap()));
-                }
-            }
-        }
-        files.sort();
-        files
-    };
-    let before = snapshot();
+    let before = snapshot(&runs_dir);
 
     // A second run with sampling (minutes of work), killed after a few seconds.
     let text = std::fs::read_to_string(&target).unwrap();
@@ -247,7 +213,11 @@ fn a_killed_run_leaves_no_complete_folder_and_earlier_runs_intact() {
     child.kill().unwrap();
     child.wait().unwrap();
 
-    assert_eq!(snapshot(), before, "earlier runs and LATEST untouched");
+    assert_eq!(
+        snapshot(&runs_dir),
+        before,
+        "earlier runs and LATEST untouched"
+    );
     let complete: Vec<_> = std::fs::read_dir(&runs_dir)
         .unwrap()
         .map(|e| e.unwrap().path())
@@ -263,10 +233,10 @@ fn a_killed_run_leaves_no_complete_folder_and_earlier_runs_intact() {
 #[test]
 fn a_warm_start_finds_the_same_solution() {
     let dir = tempfile::tempdir().unwrap();
-    copy_demo(dir.path());
-    let target = dir.path().join("ostrel-12.toml");
-    let text = std::fs::read_to_string(&target).unwrap();
-    std::fs::write(&target, text + "warm_start = true\n").unwrap();
+    let target = demo_with(
+        dir.path(),
+        "sample = false\naudit = false\nwarm_start = true",
+    );
     let target = target.to_str().unwrap();
     let results = |out: &std::process::Output| -> Value {
         assert!(

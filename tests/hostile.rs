@@ -3,19 +3,11 @@
 //! fault, and the problem; never a panic. `docs/bad-inputs.md` lists the same inputs
 //! with their messages. Binary inputs found by the fuzzers are in `tests/hostile/`.
 
+mod common;
+
+use common::{heft, stderr};
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn heft(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn stderr(out: &Output) -> String {
-    String::from_utf8_lossy(&out.stderr).into_owned()
-}
 
 fn hostile(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))

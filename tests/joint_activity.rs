@@ -11,8 +11,12 @@
 //! each epoch and ±0.05 d from it, and `G′` is the central difference (error of order
 //! (0.05 · 2π/13.7)² / 6 ≈ 4e-5 relative).
 
+mod common;
+
+use common::circular_start;
+
 use heft::data::{Indicator, RvSet};
-use heft::fit::{self, FitOptions, PlanetSpec};
+use heft::fit::{self, FitOptions};
 use heft::gp::{Activity, rotation_prior};
 use heft::target::OrbitShape;
 use nalgebra::{DMatrix, DVector};
@@ -90,19 +94,6 @@ fn realisation(seed: u64, width_level: f64) -> RvSet {
     set
 }
 
-fn spec() -> PlanetSpec {
-    PlanetSpec {
-        period_d: P_TRUE,
-        fix_period: false,
-        k_mps: 3.0,
-        tc_d: 0.0,
-        ecc_vector: (0.0, 0.0),
-        period_prior: None,
-        tc_prior: None,
-        label: "b".into(),
-    }
-}
-
 fn options(activity: Activity) -> FitOptions {
     FitOptions {
         shape: OrbitShape::Circular,
@@ -153,7 +144,7 @@ fn joint_model_recovers_planet_and_couplings() {
     for seed in 0..runs {
         let set = realisation(20 + seed, WIDTH_LEVEL);
         let k = |a: Activity| {
-            let f = fit::fit(&set, &[spec()], &options(a)).unwrap();
+            let f = fit::fit(&set, &[circular_start(P_TRUE, 3.0)], &options(a)).unwrap();
             let s = f.planets[0].k_mps;
             (s.value, 0.5 * (s.minus + s.plus), f)
         };
@@ -188,7 +179,12 @@ fn joint_model_recovers_planet_and_couplings() {
 #[test]
 fn anticorrelated_indicator_is_reported_with_positive_level() {
     let set = realisation(3, -WIDTH_LEVEL);
-    let f = fit::fit(&set, &[spec()], &options(Activity::Joint)).unwrap();
+    let f = fit::fit(
+        &set,
+        &[circular_start(P_TRUE, 3.0)],
+        &options(Activity::Joint),
+    )
+    .unwrap();
     for (key, value) in [
         ("coupling.width.level", WIDTH_LEVEL),
         ("coupling.rv.level_mps", -RV_LEVEL),

@@ -2,48 +2,13 @@
 //! naming the key and the limit; a run with a time budget stops cleanly with what it has,
 //! says what it left out, and exits 3.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
+
+use common::{demo_with, heft, stderr};
+
+use std::path::Path;
 
 use serde_json::Value;
-
-fn heft(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn stderr(out: &Output) -> String {
-    String::from_utf8_lossy(&out.stderr).into_owned()
-}
-
-/// The demo in `to` with `settings` added to its `[settings]` table.
-fn demo_with(to: &Path, settings: &str) -> PathBuf {
-    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("data-demo");
-    for name in ["ostrel-12.toml", "quill.csv", "tarn.txt", "fennick.tsv"] {
-        std::fs::copy(demo.join(name), to.join(name)).unwrap();
-    }
-    let target = to.join("ostrel-12.toml");
-    let text = std::fs::read_to_string(&target).unwrap();
-    let mut kept: Vec<&str> = Vec::new();
-    let keys: Vec<&str> = settings
-        .lines()
-        .filter_map(|l| l.split('=').next())
-        .map(str::trim)
-        .collect();
-    for line in text.lines() {
-        let key = line.split('=').next().unwrap_or("").trim();
-        if !keys.contains(&key) {
-            kept.push(line);
-        }
-    }
-    let text = kept
-        .join("\n")
-        .replace("[settings]", &format!("[settings]\n{settings}"));
-    std::fs::write(&target, text).unwrap();
-    target
-}
 
 #[test]
 fn settings_beyond_their_caps_are_refused() {

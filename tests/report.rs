@@ -2,27 +2,16 @@
 //! epoch, one model curve per planet, labelled axes), the page is well-formed and
 //! self-contained, and `heft render` rebuilds the same files from the saved results.
 
+mod common;
+
+use common::{heft, repo};
+
 use std::fs;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
 use quick_xml::Reader;
 use quick_xml::events::Event;
 use serde_json::Value;
-
-fn heft(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_heft"))
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn repo(p: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join(p)
-        .display()
-        .to_string()
-}
 
 fn read(p: &Path) -> String {
     fs::read_to_string(p).unwrap_or_else(|e| panic!("{}: {e}", p.display()))

@@ -92,19 +92,10 @@ impl Term {
     /// Covariance at lag `tau_d` (days, either sign), m²/s².
     pub fn covariance(&self, tau_d: f64) -> f64 {
         match *self {
-            Term::QuasiPeriodic {
-                amplitude_mps,
-                evolution_d,
-                period_d,
-                smoothness,
-            } => {
-                let s = (std::f64::consts::PI * tau_d / period_d).sin();
-                amplitude_mps
-                    * amplitude_mps
-                    * (-0.5
-                        * (s * s / (smoothness * smoothness)
-                            + tau_d * tau_d / (evolution_d * evolution_d)))
-                        .exp()
+            Term::QuasiPeriodic { .. } => {
+                self.quasi_periodic_lag(tau_d)
+                    .expect("a quasi-periodic term")
+                    .k
             }
             Term::Oscillator { .. } => {
                 let [a, b, c, d] = self.exp_term().expect("oscillators are exponential sums");
@@ -120,12 +111,14 @@ impl Term {
     /// [`Term::QuasiPeriodic`]: `2k`, `k τ²/λ²`, `k πτ sin(2πτ/P)/(2w²P)`,
     /// `k sin²(πτ/P)/w²`); `None` for other terms.
     pub fn log_gradient(&self, tau_d: f64) -> Option<[f64; 4]> {
-        let QuasiPeriodicLag { k, x, l2, w2, .. } = self.quasi_periodic_lag(tau_d)?;
+        let QuasiPeriodicLag {
+            k, x, s, c, l2, w2, ..
+        } = self.quasi_periodic_lag(tau_d)?;
         Some([
             2.0 * k,
             k * tau_d * tau_d / l2,
-            k * x * (2.0 * x).sin() / (2.0 * w2),
-            k * x.sin().powi(2) / w2,
+            k * x * s * c / w2,
+            k * s * s / w2,
         ])
     }
 
@@ -138,20 +131,8 @@ impl Term {
     /// One `sin_cos` and one `exp` per lag: `sin 2x = 2 sin x cos x`,
     /// `cos 2x = 1 − 2 sin²x`.
     pub fn lag_derivatives(&self, tau_d: f64) -> Option<[f64; 3]> {
-        let Term::QuasiPeriodic {
-            amplitude_mps,
-            evolution_d,
-            period_d,
-            smoothness,
-        } = *self
-        else {
-            return None;
-        };
-        let (l2, w2) = (evolution_d * evolution_d, smoothness * smoothness);
-        let (s, c) = (std::f64::consts::PI * tau_d / period_d).sin_cos();
-        let k = amplitude_mps * amplitude_mps * (-0.5 * (s * s / w2 + tau_d * tau_d / l2)).exp();
-        let f1 = -std::f64::consts::PI * s * c / (w2 * period_d) - tau_d / l2;
-        let f2 = -(std::f64::consts::PI / period_d).powi(2) * (1.0 - 2.0 * s * s) / w2 - 1.0 / l2;
+        let lag = self.quasi_periodic_lag(tau_d)?;
+        let (k, f1, f2) = (lag.k, lag.f1(), lag.f2());
         Some([k, k * f1, k * (f1 * f1 + f2)])
     }
 
@@ -165,23 +146,20 @@ impl Term {
     /// `f′_lnP = π [s c + x (c² − s²)]/(w²P)`,
     /// `f″_lnP = 2(π/P)² [(1 − 2s²) − 2 x s c]/w²`.
     pub fn lag_derivative_gradients(&self, tau_d: f64) -> Option<[[f64; 3]; 3]> {
-        let Term::QuasiPeriodic {
-            evolution_d,
+        let lag = self.quasi_periodic_lag(tau_d)?;
+        let QuasiPeriodicLag {
+            k,
+            x,
+            s,
+            c,
+            l2,
+            w2,
             period_d,
-            smoothness,
             ..
-        } = *self
-        else {
-            return None;
-        };
-        let [k, d1, _] = self.lag_derivatives(tau_d)?;
+        } = lag;
+        let (f1, f2) = (lag.f1(), lag.f2());
         let pi = std::f64::consts::PI;
-        let (l2, w2) = (evolution_d * evolution_d, smoothness * smoothness);
-        let x = pi * tau_d / period_d;
-        let (s, c) = x.sin_cos();
         let q = (pi / period_d).powi(2);
-        let f1 = if k > 0.0 { d1 / k } else { 0.0 };
-        let f2 = -q * (1.0 - 2.0 * s * s) / w2 - 1.0 / l2;
         let partials = [
             [tau_d * tau_d / l2, 2.0 * tau_d / l2, 2.0 / l2],
             [
@@ -208,19 +186,26 @@ impl Term {
     /// share; `None` for other terms.
     fn quasi_periodic_lag(&self, tau_d: f64) -> Option<QuasiPeriodicLag> {
         let Term::QuasiPeriodic {
+            amplitude_mps,
             evolution_d,
             period_d,
             smoothness,
-            ..
         } = *self
         else {
             return None;
         };
+        let (l2, w2) = (evolution_d * evolution_d, smoothness * smoothness);
+        let x = std::f64::consts::PI * tau_d / period_d;
+        let (s, c) = x.sin_cos();
         Some(QuasiPeriodicLag {
-            k: self.covariance(tau_d),
-            x: std::f64::consts::PI * tau_d / period_d,
-            l2: evolution_d * evolution_d,
-            w2: smoothness * smoothness,
+            tau: tau_d,
+            k: amplitude_mps * amplitude_mps * (-0.5 * (s * s / w2 + tau_d * tau_d / l2)).exp(),
+            x,
+            s,
+            c,
+            l2,
+            w2,
+            period_d,
         })
     }
 
@@ -248,16 +233,38 @@ impl Term {
     }
 }
 
-/// A quasi-periodic term evaluated at one lag τ.
+/// A quasi-periodic term evaluated at one lag τ (one `sin_cos` and one `exp`).
+#[derive(Clone, Copy)]
 struct QuasiPeriodicLag {
+    /// `τ`, days.
+    tau: f64,
     /// `k(τ)`, m²/s².
     k: f64,
-    /// `πτ/P`, radians.
+    /// `x = πτ/P`, radians.
     x: f64,
+    /// `sin x`.
+    s: f64,
+    /// `cos x`.
+    c: f64,
     /// `λ²`, d².
     l2: f64,
     /// `w²`.
     w2: f64,
+    /// `P`, days.
+    period_d: f64,
+}
+
+impl QuasiPeriodicLag {
+    /// `f′ = d ln k/dτ = −π sin(2x)/(2w²P) − τ/λ²`, 1/d (`sin 2x = 2 sin x cos x`).
+    fn f1(&self) -> f64 {
+        -std::f64::consts::PI * self.s * self.c / (self.w2 * self.period_d) - self.tau / self.l2
+    }
+
+    /// `f″ = −π² cos(2x)/(w²P²) − 1/λ²`, 1/d² (`cos 2x = 1 − 2 sin²x`).
+    fn f2(&self) -> f64 {
+        -(std::f64::consts::PI / self.period_d).powi(2) * (1.0 - 2.0 * self.s * self.s) / self.w2
+            - 1.0 / self.l2
+    }
 }
 
 /// A sum of covariance terms.

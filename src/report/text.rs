@@ -80,7 +80,14 @@ pub fn summary_text(a: &Analysis) -> String {
         a.set.epoch_bjd
     );
     s.push_str(&data_changes_text(a));
-    let _ = writeln!(s, "\nsignal search (GLS of residuals, Baluev FAP):");
+    let heading = if fit.layout.activity.is_some() {
+        format!(
+            "signal search (GLS of residuals, Baluev FAP; with the activity model, candidates from its likelihood-ratio periodogram, kept when ΔBIC ≥ {ACTIVITY_SEARCH_BIC}):"
+        )
+    } else {
+        "signal search (GLS of residuals, Baluev FAP):".to_string()
+    };
+    let _ = writeln!(s, "\n{heading}");
     for step in &a.search.steps {
         for (period, gain) in &step.activity_rejected {
             let why = if *gain < ACTIVITY_SEARCH_BIC {
