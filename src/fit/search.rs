@@ -238,20 +238,6 @@ pub fn search_warm(
         )?;
         let testing = settings.options.activity != Activity::None && !forced;
         let strongest = pg.peaks(1, 0.0).into_iter().next();
-        // With an activity model the candidates come from the periodogram under it (the
-        // strongest one for a requested number of signals).
-        let n_candidates = if testing { ACTIVITY_SEARCH_PEAKS } else { 1 };
-        let peaks = match activity_periodogram(&current, set, &grid) {
-            Some((gain, coarse)) => local_maxima(&gain, &coarse, n_candidates, 1.0 / span, true)
-                .into_iter()
-                .map(|j| {
-                    let f = coarse.frequency(j);
-                    let at = ((f - grid.fmin) / grid.df).round() as usize;
-                    pg.peak_at(at.min(grid.n - 1))
-                })
-                .collect(),
-            None => strongest.into_iter().collect::<Vec<Peak>>(),
-        };
         let wanted = planets.len() < limit;
         // With an activity model the BIC decides, not the false-alarm probability of a
         // periodogram that still holds the activity signal.
@@ -268,6 +254,20 @@ pub fn search_warm(
             steps.push(step);
             break;
         }
+        // With an activity model the candidates come from the periodogram under it (the
+        // strongest one for a requested number of signals).
+        let n_candidates = if testing { ACTIVITY_SEARCH_PEAKS } else { 1 };
+        let peaks = match activity_periodogram(&current, set, &grid) {
+            Some((gain, coarse)) => local_maxima(&gain, &coarse, n_candidates, 1.0 / span, true)
+                .into_iter()
+                .map(|j| {
+                    let f = coarse.frequency(j);
+                    let at = ((f - grid.fmin) / grid.df).round() as usize;
+                    step.periodogram.peak_at(at.min(grid.n - 1))
+                })
+                .collect(),
+            None => strongest.into_iter().collect::<Vec<Peak>>(),
+        };
         let label = next_label(&planets);
         let mut chosen = None;
         for peak in peaks.into_iter().filter(qualifies) {
