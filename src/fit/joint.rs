@@ -37,7 +37,8 @@ pub struct JointLayout {
     pub prior_bounds: Vec<(f64, f64)>,
     /// The coupling (block index) whose sign is held positive in reported values and in
     /// the sampler ([`JointLayout::canonical`]); the first indicator's level until a fit
-    /// picks the best-determined one ([`JointLayout::pick_sign_reference`]).
+    /// picks the one farthest from zero relative to its scale
+    /// ([`JointLayout::pick_sign_reference`]).
     pub sign_reference: usize,
     /// Name of each entry, e.g. `coupling.rv.level_mps`, `coupling.rv.slope_mps_d` (m/s × d),
     /// `coupling.width.slope_d` (the indicator's unit × d), `indicator_offset.width.Quill`.
