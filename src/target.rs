@@ -163,7 +163,10 @@ pub enum OrbitShape {
 
 /// One indicator column name or a list of them.
 #[derive(Clone, Debug, PartialEq, Deserialize, serde::Serialize)]
-#[serde(untagged)]
+#[serde(
+    untagged,
+    expecting = "an indicator column name or a list of names, e.g. \"line_width\" or [\"line_width\", \"s_index\"]"
+)]
 pub enum Columns {
     /// One column.
     One(String),

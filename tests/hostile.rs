@@ -244,6 +244,10 @@ fn bad_target_files() {
             vec!["settings.walkers: must be 0 (automatic) or an even number ≥ 4, got 7"],
         ),
         (
+            format!("{base}[settings]\nactivity = \"joint\"\nactivity_indicator = 5\n"),
+            vec!["an indicator column name or a list of names"],
+        ),
+        (
             format!("{base}time = \"GPS\"\n"),
             vec!["data[0].time", "GPS"],
         ),
